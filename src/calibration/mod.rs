@@ -1,0 +1,323 @@
+//! Reference distributions for squared distances: p-values and cutoffs.
+//!
+//! A squared distance alone does not say how unusual a row is; its
+//! distribution under the model does. If the rows are multivariate normal,
+//! three exact results cover the cases that occur in practice
+//! (`n` rows fitted, `p` variables, classical mean and covariance with the
+//! `n − 1` divisor):
+//!
+//! | situation | statistic | distribution |
+//! |---|---|---|
+//! | location and scatter known | `d²` | χ²(p) |
+//! | the row was one of the `n` fitting rows | `n·d² / (n−1)²` | Beta(p/2, (n−p−1)/2) |
+//! | the row is new, independent of the fit | `n(n−p)·d² / (p(n+1)(n−1))` | F(p, n−p) |
+//!
+//! The Beta result is due to Gnanadesikan and Kettenring (1972); the F
+//! result is the Phase II limit of the T² chart for individual observations
+//! (Tracy, Young and Mason 1992; NIST/SEMATECH e-Handbook of Statistical
+//! Methods, §6.5.4.3). The χ² result is the large-sample limit of both and is
+//! too liberal for small `n`: using it for new rows with `n = 30, p = 6`
+//! flags far more rows than the nominal rate.
+//!
+//! **Caution.** Every p-value and cutoff here assumes that the reference rows
+//! are a sample from one multivariate normal population and that the scored
+//! rows come from it too. A flag is evidence that a row is unusual, not a
+//! verdict that it is defective; the decision to release or reject belongs
+//! to your local quality procedure and to qualified people.
+//!
+//! Tail probabilities are computed from the upper tail directly, so p-values
+//! down to about 1e-300 keep their relative precision.
+//!
+//! # Example
+//!
+//! ```
+//! use mvdist::calibration::Reference;
+//!
+//! // A model fitted on 50 rows of 3 variables, scoring a new row.
+//! let reference = Reference::new_row(50, 3)?;
+//! let cutoff = reference.cutoff(0.01)?;
+//! assert!((reference.p_value(cutoff) - 0.01).abs() < 1e-12);
+//! // Rows beyond the cutoff have p-values below 0.01.
+//! assert!(reference.p_value(cutoff * 1.5) < 0.01);
+//! # Ok::<(), mvdist::Error>(())
+//! ```
+
+mod adjust;
+mod distributions;
+pub(crate) mod special;
+
+pub use adjust::{adjusted_p_values, Adjustment};
+pub use distributions::{BetaDistribution, ChiSquared, FDistribution};
+
+use crate::error::{Error, Result};
+use serde::{Deserialize, Serialize};
+
+/// Where a scored row comes from, relative to the model's fitting sample.
+///
+/// This choice selects the [`Reference`] distribution of its squared
+/// distance; see the [module documentation](self).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
+pub enum RowOrigin {
+    /// The row is new: it was not used to fit the model (F reference).
+    New,
+    /// The row was one of the rows the model was fitted on (Beta reference).
+    InSample,
+    /// Treat the model's location and scatter as the true parameters
+    /// (χ² reference); appropriate only when the fitting sample is very
+    /// large.
+    KnownParameters,
+}
+
+/// The distribution of a squared distance under multivariate normality.
+///
+/// # Example
+///
+/// ```
+/// use mvdist::calibration::Reference;
+///
+/// let chi2 = Reference::chi_square(2)?;
+/// // For two variables, P(χ² > x) = exp(-x/2).
+/// assert!((chi2.p_value(6.0) - (-3.0f64).exp()).abs() < 1e-15);
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum Reference {
+    /// `d² ~ χ²(dim)`: location and scatter known.
+    ChiSquare {
+        /// Number of variables `p`.
+        dim: usize,
+    },
+    /// `n·d²/(n−1)² ~ Beta(p/2, (n−p−1)/2)`: the row was in the fitting sample.
+    InSampleBeta {
+        /// Rows in the fitting sample.
+        n: usize,
+        /// Number of variables `p`.
+        dim: usize,
+    },
+    /// `n(n−p)·d²/(p(n+1)(n−1)) ~ F(p, n−p)`: the row is new.
+    NewRowF {
+        /// Rows in the fitting sample.
+        n: usize,
+        /// Number of variables `p`.
+        dim: usize,
+    },
+}
+
+impl Reference {
+    /// χ² reference with `dim` degrees of freedom.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] if `dim` is 0.
+    pub fn chi_square(dim: usize) -> Result<Self> {
+        if dim == 0 {
+            return Err(Error::invalid(
+                "dim",
+                "the number of variables must be at least 1",
+            ));
+        }
+        Ok(Reference::ChiSquare { dim })
+    }
+
+    /// Beta reference for rows that were part of a fitting sample of `n` rows.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] unless `n > dim + 1`; [`Error::InvalidParameter`]
+    /// if `dim` is 0.
+    pub fn in_sample(n: usize, dim: usize) -> Result<Self> {
+        Self::chi_square(dim)?;
+        if n < dim + 2 {
+            return Err(Error::TooFewRows {
+                rows: n,
+                needed: dim + 2,
+                columns: dim,
+            });
+        }
+        Ok(Reference::InSampleBeta { n, dim })
+    }
+
+    /// F reference for new rows scored against a model fitted on `n` rows.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] unless `n > dim`; [`Error::InvalidParameter`] if
+    /// `dim` is 0.
+    pub fn new_row(n: usize, dim: usize) -> Result<Self> {
+        Self::chi_square(dim)?;
+        if n < dim + 1 {
+            return Err(Error::TooFewRows {
+                rows: n,
+                needed: dim + 1,
+                columns: dim,
+            });
+        }
+        Ok(Reference::NewRowF { n, dim })
+    }
+
+    /// The reference for rows of the given origin, for a model fitted on `n`
+    /// rows of `dim` variables.
+    ///
+    /// # Errors
+    /// As [`Reference::chi_square`], [`Reference::in_sample`] and
+    /// [`Reference::new_row`].
+    pub fn for_origin(origin: RowOrigin, n: usize, dim: usize) -> Result<Self> {
+        match origin {
+            RowOrigin::New => Self::new_row(n, dim),
+            RowOrigin::InSample => Self::in_sample(n, dim),
+            RowOrigin::KnownParameters => Self::chi_square(dim),
+        }
+    }
+
+    /// Number of variables `p`.
+    pub fn dim(&self) -> usize {
+        match *self {
+            Reference::ChiSquare { dim }
+            | Reference::InSampleBeta { dim, .. }
+            | Reference::NewRowF { dim, .. } => dim,
+        }
+    }
+
+    /// Lower and upper tail probabilities of the squared distance `d2`.
+    fn tails(&self, d2: f64) -> (f64, f64) {
+        if d2.is_nan() {
+            return (f64::NAN, f64::NAN);
+        }
+        if d2 <= 0.0 && self.dim() > 0 {
+            return (0.0, 1.0);
+        }
+        match *self {
+            Reference::ChiSquare { dim } => match chi(dim) {
+                Ok(c) => c.tails(d2),
+                Err(_) => (f64::NAN, f64::NAN),
+            },
+            Reference::InSampleBeta { n, dim } => {
+                let max = self.max_squared_distance();
+                match beta(n, dim) {
+                    Ok(_) if d2 >= max => (1.0, 0.0),
+                    Ok(b) => b.tails_with_complement(d2 / max, (max - d2) / max),
+                    Err(_) => (f64::NAN, f64::NAN),
+                }
+            }
+            Reference::NewRowF { n, dim } => match fisher(n, dim) {
+                Ok(f) => f.tails(d2 / f_scale(n, dim)),
+                Err(_) => (f64::NAN, f64::NAN),
+            },
+        }
+    }
+
+    /// Upper tail probability `P(D² > d2)`: the p-value of a row with squared
+    /// distance `d2`. NaN for NaN input.
+    pub fn p_value(&self, d2: f64) -> f64 {
+        self.tails(d2).1
+    }
+
+    /// Lower tail probability `P(D² ≤ d2)`.
+    pub fn cdf(&self, d2: f64) -> f64 {
+        self.tails(d2).0
+    }
+
+    /// The largest squared distance this reference allows: `(n−1)²/n` for
+    /// in-sample rows, infinity otherwise.
+    pub fn max_squared_distance(&self) -> f64 {
+        match *self {
+            Reference::InSampleBeta { n, .. } => {
+                let nf = n as f64;
+                (nf - 1.0) * (nf - 1.0) / nf
+            }
+            _ => f64::INFINITY,
+        }
+    }
+
+    /// The squared distance whose upper tail probability is `alpha`: rows
+    /// with `d² > cutoff` have p-values below `alpha`.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
+    pub fn cutoff(&self, alpha: f64) -> Result<f64> {
+        match *self {
+            Reference::ChiSquare { dim } => chi(dim)?.isf(alpha),
+            Reference::InSampleBeta { n, dim } => {
+                let (_, complement) = beta(n, dim)?.isf_with_complement(alpha)?;
+                Ok(self.max_squared_distance() * (1.0 - complement))
+            }
+            Reference::NewRowF { n, dim } => Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim)),
+        }
+    }
+}
+
+// The variants' fields are public, so a hand-built value may be invalid:
+// these re-check (errors become NaN probabilities or `Err` cutoffs).
+fn chi(dim: usize) -> Result<ChiSquared> {
+    Reference::chi_square(dim)?;
+    ChiSquared::new(dim as f64)
+}
+
+fn beta(n: usize, dim: usize) -> Result<BetaDistribution> {
+    Reference::in_sample(n, dim)?;
+    BetaDistribution::new(0.5 * dim as f64, 0.5 * (n as f64 - dim as f64 - 1.0))
+}
+
+fn fisher(n: usize, dim: usize) -> Result<FDistribution> {
+    Reference::new_row(n, dim)?;
+    FDistribution::new(dim as f64, n as f64 - dim as f64)
+}
+
+/// `d² = scale · F` for new rows: `scale = p(n+1)(n−1) / (n(n−p))`.
+fn f_scale(n: usize, dim: usize) -> f64 {
+    let (nf, p) = (n as f64, dim as f64);
+    p * (nf + 1.0) * (nf - 1.0) / (nf * (nf - p))
+}
+
+pub(crate) fn check_probability(alpha: f64) -> Result<()> {
+    if alpha > 0.0 && alpha < 1.0 {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            "alpha",
+            format!("{alpha} is not a probability strictly between 0 and 1"),
+        ))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn chi_square_two_dof_is_exponential() {
+        // χ²(2) upper tail = exp(-x/2) (textbook identity), far tail included.
+        let r = Reference::chi_square(2).unwrap();
+        for &x in &[0.5, 2.0, 40.0, 1000.0, 1300.0] {
+            let exact = (-0.5 * x as f64).exp();
+            assert!((r.p_value(x) - exact).abs() <= 1e-13 * exact, "x = {x}");
+        }
+        assert!((r.cutoff(1e-200).unwrap() - 2.0 * 200.0 * 10f64.ln()).abs() < 1e-10);
+    }
+
+    #[test]
+    fn cutoffs_invert_p_values() {
+        let refs = [
+            Reference::chi_square(7).unwrap(),
+            Reference::in_sample(40, 5).unwrap(),
+            Reference::new_row(40, 5).unwrap(),
+            Reference::new_row(1_000_000, 8).unwrap(),
+        ];
+        for r in refs {
+            for &alpha in &[0.5, 0.05, 1e-3, 1e-9, 1e-30] {
+                let c = r.cutoff(alpha).unwrap();
+                let back = r.p_value(c);
+                assert!((back - alpha).abs() <= 1e-9 * alpha, "{r:?} {alpha} {back}");
+            }
+        }
+    }
+
+    #[test]
+    fn invalid_parameters_are_errors() {
+        assert!(Reference::chi_square(0).is_err());
+        assert!(Reference::in_sample(4, 3).is_err());
+        assert!(Reference::new_row(3, 3).is_err());
+        let r = Reference::chi_square(3).unwrap();
+        for bad in [0.0, 1.0, -0.1, f64::NAN, 2.0] {
+            assert!(r.cutoff(bad).is_err());
+        }
+    }
+}

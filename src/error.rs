@@ -1,0 +1,180 @@
+//! The crate's single error type.
+//!
+//! Every fallible function in mvdist returns [`Result<T>`](Result), whose
+//! error is [`Error`]. Each variant carries the position (row and column,
+//! both 0-based) and the reason, so that a caller can report the problem in
+//! its own terms, for example with the column's name.
+
+use std::fmt;
+
+/// A specialized `Result` for mvdist.
+pub type Result<T> = std::result::Result<T, Error>;
+
+/// Everything that can go wrong in mvdist.
+///
+/// Rows and columns are 0-based indices into the data the caller passed.
+/// Columns are the variables; rows are observations.
+///
+/// # Example
+///
+/// ```
+/// use mvdist::{DistanceModel, Error};
+/// use ndarray::array;
+///
+/// // The second column is constant: its variance is zero.
+/// let rows = array![[1.0, 5.0], [2.0, 5.0], [4.0, 5.0], [3.0, 5.0]];
+/// match DistanceModel::fit(rows.view()) {
+///     Err(Error::ZeroVariance { column }) => assert_eq!(column, 1),
+///     other => panic!("unexpected: {other:?}"),
+/// }
+/// ```
+#[derive(Debug, Clone, PartialEq)]
+#[non_exhaustive]
+pub enum Error {
+    /// The input has no rows or no columns.
+    Empty {
+        /// What was empty, in words (for example "rows" or "columns").
+        what: &'static str,
+    },
+    /// A value is NaN or infinite.
+    NonFinite {
+        /// Row of the offending value.
+        row: usize,
+        /// Column of the offending value.
+        column: usize,
+        /// The value itself.
+        value: f64,
+    },
+    /// A dimension does not match what the operation needs.
+    ShapeMismatch {
+        /// Which dimension, in words.
+        what: &'static str,
+        /// The size the operation needs.
+        expected: usize,
+        /// The size that was passed.
+        found: usize,
+    },
+    /// Too few rows for the number of columns.
+    TooFewRows {
+        /// Rows available.
+        rows: usize,
+        /// Rows needed at least.
+        needed: usize,
+        /// Number of columns (variables).
+        columns: usize,
+    },
+    /// A variable has zero (or non-positive) variance.
+    ZeroVariance {
+        /// The constant variable.
+        column: usize,
+    },
+    /// A variable is (numerically) a linear combination of earlier ones:
+    /// its variance left after regressing it on the earlier variables is
+    /// a negligible fraction of its own variance.
+    Collinear {
+        /// The dependent variable.
+        column: usize,
+        /// Fraction of the variable's variance not explained by the earlier
+        /// variables (0 for an exact linear combination).
+        residual_fraction: f64,
+    },
+    /// A scatter matrix is not positive definite and the failure is not a
+    /// near-exact linear dependence (for example a negative variance, or an
+    /// indefinite matrix supplied by the caller).
+    NotPositiveDefinite {
+        /// The variable at which the Cholesky factorization failed.
+        column: usize,
+    },
+    /// A matrix that must be symmetric is not.
+    NotSymmetric {
+        /// Row of the largest asymmetry.
+        row: usize,
+        /// Column of the largest asymmetry.
+        column: usize,
+        /// Absolute difference between the two mirrored entries.
+        difference: f64,
+    },
+    /// A computation overflowed: the row's values are finite but so large
+    /// that its distance is not representable.
+    Overflow {
+        /// The row whose result overflowed.
+        row: usize,
+    },
+    /// A parameter is out of its allowed range.
+    InvalidParameter {
+        /// The parameter's name.
+        name: &'static str,
+        /// What is wrong and what is allowed.
+        reason: String,
+    },
+    /// A saved model or accumulator is malformed.
+    Format {
+        /// What is wrong with it.
+        reason: String,
+    },
+}
+
+impl Error {
+    pub(crate) fn invalid(name: &'static str, reason: impl Into<String>) -> Self {
+        Error::InvalidParameter {
+            name,
+            reason: reason.into(),
+        }
+    }
+}
+
+impl fmt::Display for Error {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match self {
+            Error::Empty { what } => write!(f, "the input has no {what}; pass at least one"),
+            Error::NonFinite { row, column, value } => write!(
+                f,
+                "non-finite value {value} at row {row}, column {column}; remove or impute it before fitting or scoring"
+            ),
+            Error::ShapeMismatch {
+                what,
+                expected,
+                found,
+            } => write!(f, "{what}: expected {expected}, found {found}"),
+            Error::TooFewRows {
+                rows,
+                needed,
+                columns,
+            } => write!(
+                f,
+                "{rows} rows are too few for {columns} columns: at least {needed} are needed; add rows, drop columns or use a shrinkage estimator"
+            ),
+            Error::ZeroVariance { column } => write!(
+                f,
+                "column {column} has zero variance (it is constant); drop it from the variables"
+            ),
+            Error::Collinear {
+                column,
+                residual_fraction,
+            } => write!(
+                f,
+                "column {column} is a linear combination of the columns before it (unexplained variance fraction {residual_fraction:.3e}); drop it or use a shrinkage estimator"
+            ),
+            Error::NotPositiveDefinite { column } => write!(
+                f,
+                "the scatter matrix is not positive definite (the factorization fails at column {column}); check that it is a covariance matrix"
+            ),
+            Error::NotSymmetric {
+                row,
+                column,
+                difference,
+            } => write!(
+                f,
+                "the matrix is not symmetric: entries ({row}, {column}) and ({column}, {row}) differ by {difference:.3e}"
+            ),
+            Error::Overflow { row } => write!(
+                f,
+                "row {row} is so far from the centre that its squared distance overflows; check its units"
+            ),
+            Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
+            Error::Format { reason } => write!(f, "malformed model data: {reason}"),
+        }
+    }
+}
+
+impl std::error::Error for Error {}

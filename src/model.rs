@@ -1,0 +1,482 @@
+//! The fitted distance model: location, scatter, sample size and origin.
+
+use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
+use crate::data::{check_columns, check_row_finite, rows_from_slice};
+use crate::distance::kernel;
+use crate::error::{Error, Result};
+use crate::explain::{contributions, ContributionOrder, Contributions};
+use crate::moments::{Divisor, MomentAccumulator};
+use crate::scatter::Scatter;
+use crate::whitening::{Whitener, WhiteningKind};
+use ndarray::{Array1, ArrayView2};
+use rayon::prelude::*;
+use serde::{Deserialize, Serialize};
+
+/// How a model's location and scatter were estimated.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+#[non_exhaustive]
+pub enum Estimator {
+    /// Sample mean and covariance.
+    Classical {
+        /// The covariance denominator.
+        divisor: Divisor,
+    },
+    /// Weighted mean and covariance.
+    Weighted {
+        /// The covariance denominator.
+        divisor: Divisor,
+    },
+    /// Location and scatter supplied by the caller.
+    Supplied,
+}
+
+/// A fitted model for squared generalized distances: a location `μ`, a
+/// validated [`Scatter`] `Σ`, and the number `n` of rows it was fitted on.
+///
+/// The model knows `n` and `p`, so it can pick the right reference
+/// distribution for a p-value: say whether scored rows are
+/// [`RowOrigin::New`] (F reference) or [`RowOrigin::InSample`] (Beta
+/// reference); see [`crate::calibration`].
+///
+/// Models are plain data: `Send + Sync`, cheap to share behind an `Arc`,
+/// and serializable with serde (deserializing re-validates the scatter).
+///
+/// # Example
+/// ```
+/// use mvdist::{DistanceModel, RowOrigin};
+/// use ndarray::array;
+///
+/// let reference = array![
+///     [10.1, 4.9], [9.8, 5.2], [10.3, 5.1], [9.9, 4.8], [10.0, 5.0],
+///     [10.2, 5.3], [9.7, 4.9], [10.1, 5.0], [9.9, 5.1], [10.0, 4.7],
+/// ];
+/// let model = DistanceModel::fit(reference.view())?;
+/// let new_rows = array![[10.0, 5.0], [11.5, 3.9]];
+/// let scores = model.score(new_rows.view(), RowOrigin::New)?;
+/// assert!(scores.p_values()[0] > 0.5);
+/// assert!(scores.p_values()[1] < 0.01);
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ModelData", into = "ModelData")]
+pub struct DistanceModel {
+    location: Vec<f64>,
+    scatter: Scatter,
+    sample_size: usize,
+    estimator: Estimator,
+}
+
+#[derive(Serialize, Deserialize)]
+struct ModelData {
+    n: usize,
+    location: Vec<f64>,
+    scatter: Scatter,
+    estimator: Estimator,
+}
+
+impl TryFrom<ModelData> for DistanceModel {
+    type Error = Error;
+    fn try_from(d: ModelData) -> Result<Self> {
+        DistanceModel::from_parts(d.location, d.scatter, d.n, d.estimator)
+    }
+}
+
+impl From<DistanceModel> for ModelData {
+    fn from(m: DistanceModel) -> Self {
+        ModelData {
+            n: m.sample_size,
+            location: m.location,
+            scatter: m.scatter,
+            estimator: m.estimator,
+        }
+    }
+}
+
+/// Squared distances and p-values of a batch of rows.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct Scores {
+    squared_distances: Vec<f64>,
+    p_values: Vec<f64>,
+    reference: Reference,
+}
+
+impl Scores {
+    /// The squared distance of each row.
+    pub fn squared_distances(&self) -> &[f64] {
+        &self.squared_distances
+    }
+
+    /// The p-value of each row under [`reference`](Self::reference).
+    pub fn p_values(&self) -> &[f64] {
+        &self.p_values
+    }
+
+    /// The reference distribution used.
+    pub fn reference(&self) -> Reference {
+        self.reference
+    }
+
+    /// p-values adjusted for multiple testing.
+    ///
+    /// # Errors
+    /// As [`adjusted_p_values`].
+    pub fn adjusted_p_values(&self, adjustment: Adjustment) -> Result<Vec<f64>> {
+        adjusted_p_values(&self.p_values, adjustment)
+    }
+
+    /// Flags: `true` where the (adjusted) p-value is at most `alpha`.
+    ///
+    /// A flag is evidence that a row is unusual under the model, not a
+    /// verdict; see the cautions in [`crate::calibration`].
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
+    pub fn flags(&self, alpha: f64, adjustment: Adjustment) -> Result<Vec<bool>> {
+        check_probability(alpha)?;
+        Ok(self
+            .adjusted_p_values(adjustment)?
+            .into_iter()
+            .map(|q| q <= alpha)
+            .collect())
+    }
+}
+
+/// The score of a single row.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RowScore {
+    /// Squared generalized distance.
+    pub squared_distance: f64,
+    /// Upper-tail p-value under the chosen reference.
+    pub p_value: f64,
+    /// Whether `p_value ≤ alpha`.
+    pub flagged: bool,
+}
+
+impl DistanceModel {
+    /// Fits the sample mean and the unbiased (`n − 1`) covariance.
+    ///
+    /// # Errors
+    /// [`Error::Empty`]; [`Error::NonFinite`] naming the row and column;
+    /// [`Error::TooFewRows`] unless `n > p`; [`Error::ZeroVariance`] or
+    /// [`Error::Collinear`] naming the column.
+    pub fn fit(rows: ArrayView2<'_, f64>) -> Result<Self> {
+        Self::fit_with_divisor(rows, Divisor::Unbiased)
+    }
+
+    /// As [`fit`](Self::fit), on a row-major slice with `columns` columns.
+    ///
+    /// # Errors
+    /// As [`fit`](Self::fit) and [`rows_from_slice`].
+    pub fn fit_slice(data: &[f64], columns: usize) -> Result<Self> {
+        Self::fit(rows_from_slice(data, columns)?)
+    }
+
+    /// Fits the sample mean and covariance with the given divisor.
+    ///
+    /// # Errors
+    /// As [`fit`](Self::fit).
+    pub fn fit_with_divisor(rows: ArrayView2<'_, f64>, divisor: Divisor) -> Result<Self> {
+        if rows.ncols() == 0 {
+            return Err(Error::Empty { what: "columns" });
+        }
+        if rows.nrows() == 0 {
+            return Err(Error::Empty { what: "rows" });
+        }
+        let acc = MomentAccumulator::from_rows(rows)?;
+        Self::from_accumulator(&acc, divisor)
+    }
+
+    /// Fits the weighted mean and covariance (weights read as reliability
+    /// weights; see [`Divisor`]). The model's sample size is the number of
+    /// rows with positive weight.
+    ///
+    /// # Errors
+    /// As [`fit`](Self::fit), and those of
+    /// [`MomentAccumulator::from_weighted_rows`].
+    pub fn fit_weighted(
+        rows: ArrayView2<'_, f64>,
+        weights: &[f64],
+        divisor: Divisor,
+    ) -> Result<Self> {
+        if rows.ncols() == 0 {
+            return Err(Error::Empty { what: "columns" });
+        }
+        let acc = MomentAccumulator::from_weighted_rows(rows, weights)?;
+        let positive = weights.iter().filter(|&&w| w > 0.0).count();
+        let scatter = acc.scatter(divisor)?;
+        Self::from_parts(
+            acc.mean().to_vec(),
+            scatter,
+            positive,
+            Estimator::Weighted { divisor },
+        )
+    }
+
+    /// The model of the rows summarized by an accumulator.
+    ///
+    /// # Errors
+    /// As [`MomentAccumulator::scatter`].
+    pub fn from_accumulator(acc: &MomentAccumulator, divisor: Divisor) -> Result<Self> {
+        if acc.count() == 0 {
+            return Err(Error::Empty { what: "rows" });
+        }
+        let scatter = acc.scatter(divisor)?;
+        Self::from_parts(
+            acc.mean().to_vec(),
+            scatter,
+            acc.count() as usize,
+            Estimator::Classical { divisor },
+        )
+    }
+
+    /// A model from a location and scatter estimated elsewhere, with the
+    /// number of rows `sample_size` they were estimated from (used by the
+    /// Beta and F references).
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`] if the location's length differs from the
+    /// scatter's dimension; [`Error::NonFinite`] for a non-finite location;
+    /// [`Error::InvalidParameter`] if `sample_size` is 0.
+    pub fn from_parts(
+        location: Vec<f64>,
+        scatter: Scatter,
+        sample_size: usize,
+        estimator: Estimator,
+    ) -> Result<Self> {
+        if location.len() != scatter.dim() {
+            return Err(Error::ShapeMismatch {
+                what: "location length",
+                expected: scatter.dim(),
+                found: location.len(),
+            });
+        }
+        check_row_finite(&location, 0)?;
+        if sample_size == 0 {
+            return Err(Error::invalid("sample size", "must be at least 1"));
+        }
+        Ok(DistanceModel {
+            location,
+            scatter,
+            sample_size,
+            estimator,
+        })
+    }
+
+    /// Number of variables `p`.
+    pub fn dim(&self) -> usize {
+        self.location.len()
+    }
+
+    /// Number of rows `n` the model was fitted on.
+    pub fn sample_size(&self) -> usize {
+        self.sample_size
+    }
+
+    /// The location `μ`.
+    pub fn location(&self) -> &[f64] {
+        &self.location
+    }
+
+    /// The scatter `Σ`.
+    pub fn scatter(&self) -> &Scatter {
+        &self.scatter
+    }
+
+    /// How the model was estimated.
+    pub fn estimator(&self) -> &Estimator {
+        &self.estimator
+    }
+
+    fn check_point(&self, x: &[f64]) -> Result<()> {
+        if x.len() != self.dim() {
+            return Err(Error::ShapeMismatch {
+                what: "row length (number of variables)",
+                expected: self.dim(),
+                found: x.len(),
+            });
+        }
+        check_row_finite(x, 0)
+    }
+
+    /// Squared distance of one row to the location, `(x − μ)ᵀ Σ⁻¹ (x − μ)`.
+    /// Allocates nothing for `p ≤ 64`.
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`] for a row of the wrong length;
+    /// [`Error::NonFinite`] (row 0); [`Error::Overflow`].
+    pub fn squared_distance(&self, x: &[f64]) -> Result<f64> {
+        self.check_point(x)?;
+        finite(kernel::squared_distance_row(
+            &self.scatter,
+            &self.location,
+            x,
+            None,
+        ))
+    }
+
+    /// As [`squared_distance`](Self::squared_distance), using `scratch` (at
+    /// least `p` values) instead of allocating when `p > 64`.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance).
+    pub fn squared_distance_with_scratch(&self, x: &[f64], scratch: &mut [f64]) -> Result<f64> {
+        self.check_point(x)?;
+        finite(kernel::squared_distance_row(
+            &self.scatter,
+            &self.location,
+            x,
+            Some(scratch),
+        ))
+    }
+
+    /// Squared distance computed with iterative refinement in extended
+    /// precision: use it when the scatter is very ill-conditioned
+    /// ([`Scatter::condition_number`] above about 1e8) and full accuracy
+    /// matters.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance).
+    pub fn squared_distance_refined(&self, x: &[f64]) -> Result<f64> {
+        self.check_point(x)?;
+        let c: Vec<f64> = x.iter().zip(&self.location).map(|(a, b)| a - b).collect();
+        finite(self.scatter.squared_norm_refined(&c)?)
+    }
+
+    /// Squared distances of every row, in parallel for large inputs.
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`]; [`Error::NonFinite`] or [`Error::Overflow`]
+    /// naming the first offending row.
+    pub fn squared_distances(&self, rows: ArrayView2<'_, f64>) -> Result<Array1<f64>> {
+        let mut out = vec![0.0; rows.nrows()];
+        self.squared_distances_into(rows, &mut out)?;
+        Ok(Array1::from(out))
+    }
+
+    /// As [`squared_distances`](Self::squared_distances), on a row-major
+    /// slice of `p` columns.
+    ///
+    /// # Errors
+    /// As [`squared_distances`](Self::squared_distances) and
+    /// [`rows_from_slice`].
+    pub fn squared_distances_slice(&self, data: &[f64]) -> Result<Vec<f64>> {
+        let rows = rows_from_slice(data, self.dim())?;
+        let mut out = vec![0.0; rows.nrows()];
+        self.squared_distances_into(rows, &mut out)?;
+        Ok(out)
+    }
+
+    /// Squared distances written into a caller-owned buffer (one value per
+    /// row); no allocation besides per-task scratch.
+    ///
+    /// # Errors
+    /// As [`squared_distances`](Self::squared_distances);
+    /// [`Error::ShapeMismatch`] if `out` has the wrong length.
+    pub fn squared_distances_into(&self, rows: ArrayView2<'_, f64>, out: &mut [f64]) -> Result<()> {
+        check_columns(rows, self.dim())?;
+        if out.len() != rows.nrows() {
+            return Err(Error::ShapeMismatch {
+                what: "output length (one value per row)",
+                expected: rows.nrows(),
+                found: out.len(),
+            });
+        }
+        kernel::batch_squared_distances(&self.scatter, &self.location, rows, out)
+    }
+
+    /// The reference distribution for rows of the given origin.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] if the model's sample is too small for that
+    /// reference (`n > p` for new rows, `n > p + 1` for in-sample rows).
+    pub fn reference(&self, origin: RowOrigin) -> Result<Reference> {
+        Reference::for_origin(origin, self.sample_size, self.dim())
+    }
+
+    /// The squared distance beyond which rows of the given origin have
+    /// p-values below `alpha`.
+    ///
+    /// # Errors
+    /// As [`reference`](Self::reference) and [`Reference::cutoff`].
+    pub fn cutoff(&self, alpha: f64, origin: RowOrigin) -> Result<f64> {
+        self.reference(origin)?.cutoff(alpha)
+    }
+
+    /// Squared distances and p-values of every row.
+    ///
+    /// # Errors
+    /// As [`squared_distances`](Self::squared_distances) and
+    /// [`reference`](Self::reference).
+    pub fn score(&self, rows: ArrayView2<'_, f64>, origin: RowOrigin) -> Result<Scores> {
+        let reference = self.reference(origin)?;
+        let d2 = self.squared_distances(rows)?.to_vec();
+        let mut p_values = vec![0.0; d2.len()];
+        if d2.len() < 4096 {
+            for (p, &d) in p_values.iter_mut().zip(&d2) {
+                *p = reference.p_value(d);
+            }
+        } else {
+            p_values
+                .par_chunks_mut(1024)
+                .zip(d2.par_chunks(1024))
+                .for_each(|(p, d)| {
+                    for (pv, &dv) in p.iter_mut().zip(d) {
+                        *pv = reference.p_value(dv);
+                    }
+                });
+        }
+        Ok(Scores {
+            squared_distances: d2,
+            p_values,
+            reference,
+        })
+    }
+
+    /// Scores one row: squared distance, p-value, and whether
+    /// `p_value ≤ alpha`. Allocates nothing for `p ≤ 64`.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance) and
+    /// [`reference`](Self::reference); [`Error::InvalidParameter`] for an
+    /// `alpha` outside (0, 1).
+    pub fn score_row(&self, x: &[f64], origin: RowOrigin, alpha: f64) -> Result<RowScore> {
+        check_probability(alpha)?;
+        let reference = self.reference(origin)?;
+        let d2 = self.squared_distance(x)?;
+        let p_value = reference.p_value(d2);
+        Ok(RowScore {
+            squared_distance: d2,
+            p_value,
+            flagged: p_value <= alpha,
+        })
+    }
+
+    /// Per-variable terms that add up to the squared distance of `x`; see
+    /// [`crate::explain`] for how to read them.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance); an invalid
+    /// [`ContributionOrder::Given`] permutation.
+    pub fn explain(&self, x: &[f64], order: ContributionOrder) -> Result<Contributions> {
+        self.check_point(x)?;
+        let c: Vec<f64> = x.iter().zip(&self.location).map(|(a, b)| a - b).collect();
+        contributions(&self.scatter, &c, &order)
+    }
+
+    /// The whitening map of the given kind for this model.
+    ///
+    /// # Errors
+    /// As [`Whitener::new`].
+    pub fn whitener(&self, kind: WhiteningKind) -> Result<Whitener> {
+        Whitener::new(&self.location, &self.scatter, kind)
+    }
+}
+
+fn finite(d2: f64) -> Result<f64> {
+    if d2.is_finite() {
+        Ok(d2)
+    } else {
+        Err(Error::Overflow { row: 0 })
+    }
+}

@@ -1,0 +1,150 @@
+//! Moments of labelled rows: per-group accumulators and the pooled
+//! within-group covariance.
+
+use super::{accumulator::MomentAccumulator, Divisor};
+use crate::error::{Error, Result};
+use crate::scatter::Scatter;
+use ndarray::{Array2, ArrayView2, Axis};
+use std::collections::HashMap;
+use std::hash::Hash;
+
+/// Per-group moments of labelled rows, in order of first appearance.
+///
+/// The pooled within-group covariance is `Σ_g M_g / d`, where `M_g` is
+/// group `g`'s co-moment matrix and `d = n − G` ([`Divisor::Unbiased`]) or
+/// `d = n` ([`Divisor::MaximumLikelihood`]) for `n` rows in `G` groups.
+///
+/// # Example
+/// ```
+/// use mvdist::moments::{Divisor, GroupMoments};
+/// use ndarray::array;
+///
+/// let rows = array![[1.0, 2.0], [3.0, 2.5], [2.0, 4.0], [10.0, 1.0], [12.0, 3.0], [11.0, 0.0]];
+/// let labels = ["a", "a", "a", "b", "b", "b"];
+/// let groups = GroupMoments::from_rows(rows.view(), &labels)?;
+/// assert_eq!(groups.labels(), &["a", "b"]);
+/// let pooled = groups.pooled_covariance(Divisor::Unbiased)?;
+/// // Each group has variance 1 in the first column.
+/// assert!((pooled[(0, 0)] - 1.0).abs() < 1e-14);
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Debug)]
+pub struct GroupMoments<L> {
+    labels: Vec<L>,
+    groups: Vec<MomentAccumulator>,
+}
+
+impl<L: Eq + Hash + Clone> GroupMoments<L> {
+    /// Accumulates `rows`, with `labels[i]` the group of row `i`.
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`] unless there is one label per row;
+    /// [`Error::Empty`] for no rows or no columns; [`Error::NonFinite`]
+    /// naming the row.
+    pub fn from_rows(rows: ArrayView2<'_, f64>, labels: &[L]) -> Result<Self> {
+        let (n, p) = rows.dim();
+        if labels.len() != n {
+            return Err(Error::ShapeMismatch {
+                what: "number of labels (one per row)",
+                expected: n,
+                found: labels.len(),
+            });
+        }
+        if p == 0 {
+            return Err(Error::Empty { what: "columns" });
+        }
+        if n == 0 {
+            return Err(Error::Empty { what: "rows" });
+        }
+        crate::data::check_finite(rows)?;
+        let mut index: HashMap<&L, usize> = HashMap::new();
+        let mut members: Vec<Vec<usize>> = Vec::new();
+        let mut order: Vec<L> = Vec::new();
+        for (i, l) in labels.iter().enumerate() {
+            let g = *index.entry(l).or_insert_with(|| {
+                order.push(l.clone());
+                members.push(Vec::new());
+                members.len() - 1
+            });
+            members[g].push(i);
+        }
+        let groups = members
+            .iter()
+            .map(|m| MomentAccumulator::from_rows(rows.select(Axis(0), m).view()))
+            .collect::<Result<Vec<_>>>()?;
+        Ok(GroupMoments {
+            labels: order,
+            groups,
+        })
+    }
+
+    /// The group labels, in order of first appearance.
+    pub fn labels(&self) -> &[L] {
+        &self.labels
+    }
+
+    /// The accumulator of each group, in the order of [`labels`](Self::labels).
+    pub fn groups(&self) -> &[MomentAccumulator] {
+        &self.groups
+    }
+
+    /// Total number of rows.
+    pub fn count(&self) -> u64 {
+        self.groups.iter().map(|g| g.count()).sum()
+    }
+
+    /// The pooled within-group covariance.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] if the denominator is not positive (every group
+    /// of size one, with [`Divisor::Unbiased`]).
+    pub fn pooled_covariance(&self, divisor: Divisor) -> Result<Array2<f64>> {
+        let p = self.groups.first().map_or(0, |g| g.dim());
+        let n = self.count() as usize;
+        let d = match divisor {
+            Divisor::Unbiased => n as f64 - self.groups.len() as f64,
+            Divisor::MaximumLikelihood => n as f64,
+        };
+        if !(d > 0.0) {
+            return Err(Error::TooFewRows {
+                rows: n,
+                needed: self.groups.len() + 1,
+                columns: p,
+            });
+        }
+        let mut m = Array2::<f64>::zeros((p, p));
+        for g in &self.groups {
+            for i in 0..p {
+                for j in 0..p {
+                    m[(i, j)] += g.comoment[i * p + j];
+                }
+            }
+        }
+        Ok(m / d)
+    }
+
+    /// The pooled within-group covariance as a validated [`Scatter`].
+    ///
+    /// # Errors
+    /// As [`pooled_covariance`](Self::pooled_covariance);
+    /// [`Error::TooFewRows`] unless `n − G ≥ p`; a variable constant within
+    /// every group is [`Error::ZeroVariance`]; the errors of [`Scatter::new`].
+    pub fn pooled_scatter(&self, divisor: Divisor) -> Result<Scatter> {
+        let p = self.groups.first().map_or(0, |g| g.dim());
+        let n = self.count() as usize;
+        let g = self.groups.len();
+        if n < g + p {
+            return Err(Error::TooFewRows {
+                rows: n,
+                needed: g + p,
+                columns: p,
+            });
+        }
+        for j in 0..p {
+            if self.groups.iter().all(|a| a.min[j] == a.max[j]) {
+                return Err(Error::ZeroVariance { column: j });
+            }
+        }
+        Scatter::new(self.pooled_covariance(divisor)?.view())
+    }
+}
