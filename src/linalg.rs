@@ -76,15 +76,19 @@ pub(crate) fn symmetric_eigenvalues(a: &[f64], p: usize) -> Option<Vec<f64>> {
     view(a, p, p).self_adjoint_eigenvalues(Side::Lower).ok()
 }
 
-/// `dst += blockᵀ · block` for a row-major `rows × p` block (the Gram matrix
-/// of centred rows), sequentially: callers parallelize over blocks.
-pub(crate) fn gram_add(dst: &mut [f64], block: &[f64], rows: usize, p: usize) {
+/// `dst += blockᵀ · block`, lower triangle only (the upper part of `dst` is
+/// left untouched), through faer's triangular product.
+pub(crate) fn gram_lower_add(dst: &mut [f64], block: &[f64], rows: usize, p: usize) {
+    use faer::linalg::matmul::triangular::{matmul as tri_matmul, BlockStructure};
     let c = view(block, rows, p);
-    matmul(
+    tri_matmul(
         view_mut(dst, p, p),
+        BlockStructure::TriangularLower,
         Accum::Add,
         c.transpose(),
+        BlockStructure::Rectangular,
         c,
+        BlockStructure::Rectangular,
         1.0,
         Par::Seq,
     );

@@ -19,6 +19,7 @@
 mod accumulator;
 mod batch;
 mod exponential;
+mod gram;
 mod pooled;
 
 pub use accumulator::MomentAccumulator;
