@@ -26,7 +26,7 @@ pub fn rows_from_slice(data: &[f64], columns: usize) -> Result<ArrayView2<'_, f6
     if columns == 0 {
         return Err(Error::Empty { what: "columns" });
     }
-    if data.len() % columns != 0 {
+    if !data.len().is_multiple_of(columns) {
         return Err(Error::ShapeMismatch {
             what: "slice length (a multiple of the column count)",
             expected: data.len().div_ceil(columns) * columns,

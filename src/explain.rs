@@ -158,6 +158,9 @@ pub(crate) fn contributions(
             }
         }
     }
+    if terms.iter().any(|t| !t.is_finite()) {
+        return Err(Error::Overflow { row: 0 });
+    }
     Ok(Contributions {
         order: chosen,
         terms,

@@ -229,6 +229,9 @@ impl Whitener {
                 }
             },
         );
+        if let Some(k) = out.iter().position(|v| !v.is_finite()) {
+            return Err(Error::Overflow { row: k / p });
+        }
         Array2::from_shape_vec((n, p), out).map_err(|_| Error::ShapeMismatch {
             what: "output",
             expected: n * p,

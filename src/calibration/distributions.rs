@@ -67,7 +67,7 @@ impl ChiSquared {
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn isf(&self, alpha: f64) -> Result<f64> {
         check_alpha(alpha)?;
-        Ok(upper_quantile_positive(alpha, |x| self.tails(x)))
+        finite_quantile(upper_quantile_positive(alpha, |x| self.tails(x)))
     }
 }
 
@@ -156,7 +156,10 @@ impl BetaDistribution {
                 up.ln() - ln_alpha
             }
         });
-        Ok(split(t))
+        let (x, y) = split(t);
+        finite_quantile(x)?;
+        finite_quantile(y)?;
+        Ok((x, y))
     }
 }
 
@@ -220,7 +223,18 @@ impl FDistribution {
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn isf(&self, alpha: f64) -> Result<f64> {
         check_alpha(alpha)?;
-        Ok(upper_quantile_positive(alpha, |x| self.tails(x)))
+        finite_quantile(upper_quantile_positive(alpha, |x| self.tails(x)))
+    }
+}
+
+fn finite_quantile(x: f64) -> Result<f64> {
+    if x.is_finite() {
+        Ok(x)
+    } else {
+        Err(Error::invalid(
+            "alpha",
+            "the quantile is not representable for these parameters",
+        ))
     }
 }
 
@@ -238,5 +252,9 @@ fn upper_quantile_positive(alpha: f64, tails: impl Fn(f64) -> (f64, f64)) -> f64
             up.ln() - ln_alpha
         }
     });
+    if t >= 708.9 {
+        // The quantile lies beyond the largest finite number.
+        return f64::INFINITY;
+    }
     t.exp()
 }

@@ -126,10 +126,10 @@ impl Reference {
     /// if `dim` is 0.
     pub fn in_sample(n: usize, dim: usize) -> Result<Self> {
         Self::chi_square(dim)?;
-        if n < dim + 2 {
+        if n < dim.saturating_add(2) {
             return Err(Error::TooFewRows {
                 rows: n,
-                needed: dim + 2,
+                needed: dim.saturating_add(2),
                 columns: dim,
             });
         }
@@ -143,10 +143,10 @@ impl Reference {
     /// `dim` is 0.
     pub fn new_row(n: usize, dim: usize) -> Result<Self> {
         Self::chi_square(dim)?;
-        if n < dim + 1 {
+        if n < dim.saturating_add(1) {
             return Err(Error::TooFewRows {
                 rows: n,
-                needed: dim + 1,
+                needed: dim.saturating_add(1),
                 columns: dim,
             });
         }
@@ -233,6 +233,18 @@ impl Reference {
     /// # Errors
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn cutoff(&self, alpha: f64) -> Result<f64> {
+        let c = self.cutoff_unchecked(alpha)?;
+        if c.is_finite() {
+            Ok(c)
+        } else {
+            Err(Error::invalid(
+                "alpha",
+                format!("the cutoff for alpha = {alpha} is beyond the largest finite number"),
+            ))
+        }
+    }
+
+    fn cutoff_unchecked(&self, alpha: f64) -> Result<f64> {
         match *self {
             Reference::ChiSquare { dim } => chi(dim)?.isf(alpha),
             Reference::InSampleBeta { n, dim } => {
@@ -287,7 +299,7 @@ mod tests {
         // χ²(2) upper tail = exp(-x/2) (textbook identity), far tail included.
         let r = Reference::chi_square(2).unwrap();
         for &x in &[0.5, 2.0, 40.0, 1000.0, 1300.0] {
-            let exact = (-0.5 * x as f64).exp();
+            let exact = (-0.5f64 * x).exp();
             assert!((r.p_value(x) - exact).abs() <= 1e-13 * exact, "x = {x}");
         }
         assert!((r.cutoff(1e-200).unwrap() - 2.0 * 200.0 * 10f64.ln()).abs() < 1e-10);

@@ -89,10 +89,8 @@ impl TryFrom<AccumulatorData> for MomentAccumulator {
         if d.mean.len() != p || d.min.len() != p || d.max.len() != p || d.comoment.len() != p * p {
             return bad(format!("vector lengths do not match dimension {p}"));
         }
-        if !(d.weight_sum >= 0.0 && d.weight_sq_sum >= 0.0)
-            || !d.weight_sum.is_finite()
-            || !d.weight_sq_sum.is_finite()
-        {
+        let valid = |w: f64| w.is_finite() && w >= 0.0;
+        if !(valid(d.weight_sum) && valid(d.weight_sq_sum)) {
             return bad("weight sums must be finite and non-negative".into());
         }
         if d.count > 0 && d.mean.iter().chain(&d.comoment).any(|v| !v.is_finite()) {
@@ -365,6 +363,9 @@ impl MomentAccumulator {
         if self.weight_sum <= 0.0 {
             return Err(Error::Empty { what: "rows" });
         }
+        if self.mean.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Overflow { row: 0 });
+        }
         Ok(Array1::from(self.mean.clone()))
     }
 
@@ -387,9 +388,11 @@ impl MomentAccumulator {
             });
         }
         let p = self.dim;
-        Ok(Array2::from_shape_fn((p, p), |(i, j)| {
-            self.comoment[i * p + j] / d
-        }))
+        let cov = Array2::from_shape_fn((p, p), |(i, j)| self.comoment[i * p + j] / d);
+        if cov.iter().any(|v| !v.is_finite()) || self.mean.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Overflow { row: 0 });
+        }
+        Ok(cov)
     }
 
     /// The covariance as a validated [`Scatter`]; a constant column is

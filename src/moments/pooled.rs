@@ -120,7 +120,11 @@ impl<L: Eq + Hash + Clone> GroupMoments<L> {
                 }
             }
         }
-        Ok(m / d)
+        let m = m / d;
+        if m.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Overflow { row: 0 });
+        }
+        Ok(m)
     }
 
     /// The pooled within-group covariance as a validated [`Scatter`].

@@ -313,7 +313,7 @@ impl Scatter {
     /// (with row 0) for a NaN or infinite entry.
     pub fn squared_norm(&self, c: &[f64]) -> Result<f64> {
         self.check_vector(c)?;
-        Ok(crate::distance::kernel::squared_norm_centred(self, c))
+        finite_or_overflow(crate::distance::kernel::squared_norm_centred(self, c))
     }
 
     /// `cᵀ Σ⁻¹ c` computed with iterative refinement in extended precision:
@@ -325,7 +325,7 @@ impl Scatter {
     /// As [`squared_norm`](Self::squared_norm).
     pub fn squared_norm_refined(&self, c: &[f64]) -> Result<f64> {
         self.check_vector(c)?;
-        Ok(refine::refined_quadratic_form(self, c))
+        finite_or_overflow(refine::refined_quadratic_form(self, c))
     }
 
     /// Solves `Σ y = b` through the Cholesky factor.
@@ -336,6 +336,9 @@ impl Scatter {
         self.check_vector(b)?;
         let mut y = b.to_vec();
         refine::cholesky_solve_in_place(self, &mut y);
+        if y.iter().any(|v| !v.is_finite()) {
+            return Err(Error::Overflow { row: 0 });
+        }
         Ok(y)
     }
 
@@ -348,5 +351,13 @@ impl Scatter {
             });
         }
         crate::data::check_row_finite(c, 0)
+    }
+}
+
+fn finite_or_overflow(v: f64) -> Result<f64> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(Error::Overflow { row: 0 })
     }
 }
