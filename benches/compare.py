@@ -72,6 +72,26 @@ def fmt(s):
     return f"{s:.3f} s"
 
 
+def share(group, bench_id, seconds, limits):
+    """The measured rate as a fraction of the binding machine limit: bytes
+    read against the parallel read bandwidth, and flops (p(p+1) per row for
+    the triangular kernels) against the FMA peak; the larger fraction is the
+    binding one."""
+    if not seconds or not limits:
+        return "n/a"
+    if group == "score_one":
+        return "latency of one call (no throughput limit applies)"
+    else:
+        n, p = (int(v) for v in bench_id.split("x"))
+    bw = limits["read_bandwidth_bytes_per_s"]
+    peak = limits["fma_peak_flops"]
+    bytes_frac = n * p * 8 / seconds / bw
+    flops_frac = n * p * (p + 1) / seconds / peak
+    if bytes_frac >= flops_frac:
+        return f"{100 * bytes_frac:.0f}% of read bandwidth ({bw / 1e9:.1f} GB/s)"
+    return f"{100 * flops_frac:.0f}% of FMA peak ({peak / 1e9:.0f} GFLOP/s)"
+
+
 def main(argv=None):
     target = os.environ.get("CARGO_TARGET_DIR") or os.path.join(CRATE, "target")
     ap = argparse.ArgumentParser(description="Compare mvdist criterion results with numpy timings.")
@@ -95,8 +115,19 @@ def main(argv=None):
         problems.append(f"criterion results directory not found: {args.criterion_dir} "
                         "(run: cargo bench --bench scoring -- --noplot)")
 
-    lines = ["| operation | size | mvdist | numpy | speed-up (numpy/mvdist) |",
-             "|---|---|---:|---:|---:|"]
+    limits = None
+    limits_path = os.path.join(os.path.dirname(args.criterion_dir), "machine_limits.json")
+    if os.path.isfile(limits_path):
+        try:
+            with open(limits_path) as f:
+                limits = json.load(f)
+        except (OSError, ValueError) as e:
+            problems.append(f"cannot read {limits_path}: {e}")
+    else:
+        problems.append(f"machine limits not found: {limits_path} (written by the scoring bench)")
+
+    lines = ["| operation | size | mvdist | numpy | speed-up (numpy/mvdist) | mvdist share of machine limit |",
+             "|---|---|---:|---:|---:|---|"]
     for group, bench_id in ROWS:
         rust = None
         if os.path.isdir(args.criterion_dir):
@@ -114,7 +145,7 @@ def main(argv=None):
             problems.append(f"numpy results have no entry for {group}/{bench_id}")
         ratio = f"{npy / rust:.2f}x" if (rust and npy) else "n/a"
         size = f"p={bench_id}" if group == "score_one" else bench_id
-        lines.append(f"| {group} | {size} | {fmt(rust)} | {fmt(npy)} | {ratio} |")
+        lines.append(f"| {group} | {size} | {fmt(rust)} | {fmt(npy)} | {ratio} | {share(group, bench_id, rust, limits)} |")
 
     print("\n".join(lines))
     if numpy_data is not None:

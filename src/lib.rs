@@ -83,6 +83,7 @@ mod error;
 pub mod explain;
 mod linalg;
 mod model;
+pub mod model_file;
 pub mod moments;
 pub mod scatter;
 pub mod whitening;

@@ -56,6 +56,7 @@ pub struct Scatter {
 
 /// The serialized form: the matrix as nested rows.
 #[derive(Serialize, Deserialize)]
+#[serde(transparent)]
 struct ScatterData {
     matrix: Vec<Vec<f64>>,
 }

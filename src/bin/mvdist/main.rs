@@ -1,0 +1,59 @@
+//! `mvdist`: squared generalized distances from the shell.
+//!
+//! ```text
+//! mvdist fit DATA.csv --out MODEL.json [--columns a,b,c]
+//! mvdist score MODEL.json DATA.csv --out SCORES.csv [--alpha 0.01] [--in-sample] [--adjust bh]
+//! ```
+//!
+//! Errors go to stderr with the file, the line (1-based, counting the
+//! header as line 1) and the column; the exit code is 1 and no output file
+//! is left behind.
+
+mod fit;
+mod output;
+mod score;
+mod table;
+
+use clap::{Parser, Subcommand};
+use std::process::ExitCode;
+
+/// Fit and score multivariate distance models on CSV files.
+#[derive(Parser)]
+#[command(name = "mvdist", version, about, long_about = None)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Estimate location and scatter from reference rows and write a model file.
+    Fit(fit::FitArgs),
+    /// Score rows against a model file: squared distance, p-value, flag, top variable.
+    Score(score::ScoreArgs),
+}
+
+/// An error for the user: what went wrong, where, and what to do.
+#[derive(Debug)]
+pub struct CliError(pub String);
+
+impl<E: std::fmt::Display> From<E> for CliError {
+    fn from(e: E) -> Self {
+        CliError(e.to_string())
+    }
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Fit(args) => fit::run(&args),
+        Command::Score(args) => score::run(&args),
+    };
+    match result {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(CliError(message)) => {
+            eprintln!("mvdist: error: {message}");
+            ExitCode::from(1)
+        }
+    }
+}

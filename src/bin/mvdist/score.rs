@@ -1,0 +1,249 @@
+//! `mvdist score`: squared distances, p-values, flags and the top variable
+//! for every row of a CSV file, streamed.
+
+use crate::output::PendingFile;
+use crate::table::{layout_for, missing_value_error, open, parse_record, read_error, RowOutcome};
+use crate::CliError;
+use mvdist::model_file::ModelFile;
+use mvdist::{ContributionOrder, Reference, RowOrigin};
+use std::io::{IsTerminal, Write};
+use std::path::{Path, PathBuf};
+
+#[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
+pub enum AdjustChoice {
+    /// Each row at level alpha on its own.
+    None,
+    /// Bonferroni: flag when m·p ≤ alpha (family-wise error rate).
+    Bonferroni,
+    /// Benjamini–Hochberg: flag at false discovery rate alpha.
+    Bh,
+}
+
+#[derive(clap::Args)]
+pub struct ScoreArgs {
+    /// Model file written by `mvdist fit`.
+    pub model: PathBuf,
+    /// CSV file of rows to score; it must have the model's columns.
+    pub data: PathBuf,
+    /// Where to write the scores (CSV).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Level for flags.
+    #[arg(long, default_value_t = 0.01)]
+    pub alpha: f64,
+    /// The rows were part of the model's fitting sample (Beta reference);
+    /// by default rows are new (F reference).
+    #[arg(long)]
+    pub in_sample: bool,
+    /// Multiple-testing adjustment for flags.
+    #[arg(long, value_enum, default_value = "none")]
+    pub adjust: AdjustChoice,
+    /// A column copied to the output to identify rows.
+    #[arg(long)]
+    pub label: Option<String>,
+    /// Write rows with a missing value as unscored (status "incomplete")
+    /// instead of stopping.
+    #[arg(long)]
+    pub skip_incomplete: bool,
+}
+
+fn load_model(path: &Path) -> Result<ModelFile, CliError> {
+    let text = std::fs::read_to_string(path).map_err(|e| {
+        CliError(format!(
+            "{}: cannot read the model file: {e}",
+            path.display()
+        ))
+    })?;
+    ModelFile::from_json(&text).map_err(|e| CliError(format!("{}: {e}", path.display())))
+}
+
+/// One pass over the data, calling `each` for every row with its line,
+/// label and values (`None` when incomplete and skipped).
+fn for_each_row(
+    args: &ScoreArgs,
+    file: &ModelFile,
+    mut each: impl FnMut(u64, Option<&str>, Option<&[f64]>) -> Result<(), CliError>,
+) -> Result<(), CliError> {
+    let (mut reader, headers) = open(&args.data)?;
+    let layout = layout_for(
+        &args.data,
+        &headers,
+        file.variables(),
+        args.label.as_deref(),
+    )?;
+    let size = std::fs::metadata(&args.data).map(|m| m.len()).unwrap_or(0);
+    let progress = std::io::stderr().is_terminal() && size > 64 << 20;
+    let mut record = csv::StringRecord::new();
+    let mut values = Vec::with_capacity(layout.fields.len());
+    let mut count = 0u64;
+    while reader
+        .read_record(&mut record)
+        .map_err(|e| read_error(&args.data, e))?
+    {
+        let line = record.position().map_or(0, |p| p.line());
+        let label = layout.label.and_then(|l| record.get(l));
+        match parse_record(&args.data, &record, &layout, &mut values)? {
+            RowOutcome::Complete => each(line, label, Some(&values))?,
+            RowOutcome::Missing(k) => {
+                if !args.skip_incomplete {
+                    return Err(missing_value_error(&args.data, line, &layout.names[k]));
+                }
+                each(line, label, None)?;
+            }
+        }
+        count += 1;
+        if progress && count.is_multiple_of(1_000_000) {
+            let done = record.position().map_or(0, |p| p.byte());
+            eprint!(
+                "\rmvdist: {count} rows ({:.0}%)",
+                100.0 * done as f64 / size as f64
+            );
+        }
+    }
+    if progress {
+        eprintln!();
+    }
+    if count == 0 {
+        return Err(CliError(format!(
+            "{}: the file has a header row but no data rows",
+            args.data.display()
+        )));
+    }
+    Ok(())
+}
+
+pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
+    if !(args.alpha > 0.0 && args.alpha < 1.0) {
+        return Err(CliError(format!(
+            "--alpha {} is not between 0 and 1",
+            args.alpha
+        )));
+    }
+    let file = load_model(&args.model)?;
+    let model = file.model();
+    let origin = if args.in_sample {
+        RowOrigin::InSample
+    } else {
+        RowOrigin::New
+    };
+    let reference: Reference = model
+        .reference(origin)
+        .map_err(|e| CliError(format!("{}: {e}", args.model.display())))?;
+    let score = |line: u64, x: &[f64]| -> Result<(f64, f64), CliError> {
+        let d2 = model
+            .squared_distance(x)
+            .map_err(|e| CliError(format!("{}, line {line}: {e}", args.data.display())))?;
+        Ok((d2, reference.p_value(d2)))
+    };
+
+    // First pass, only with an adjustment: the number of scored rows and the
+    // p-values at or below alpha (no others can be flagged), which give the
+    // flag threshold. Memory is proportional to the number of such rows.
+    let threshold = if args.adjust == AdjustChoice::None {
+        args.alpha
+    } else {
+        let mut m = 0usize;
+        let mut small = Vec::new();
+        for_each_row(args, &file, |line, _, x| {
+            if let Some(x) = x {
+                let (_, p) = score(line, x)?;
+                m += 1;
+                if p <= args.alpha {
+                    small.push(p);
+                }
+            }
+            Ok(())
+        })?;
+        let mf = m.max(1) as f64;
+        match args.adjust {
+            AdjustChoice::Bonferroni => args.alpha / mf,
+            _ => {
+                small.sort_by(f64::total_cmp);
+                small
+                    .iter()
+                    .enumerate()
+                    .filter(|(k, &p)| p <= (*k as f64 + 1.0) * args.alpha / mf)
+                    .map(|(_, &p)| p)
+                    .next_back()
+                    .unwrap_or(-1.0)
+            }
+        }
+    };
+
+    let mut out = PendingFile::create(&args.out)?;
+    let mut header = vec!["row".to_string()];
+    if let Some(l) = &args.label {
+        header.push(l.clone());
+    }
+    header.extend(
+        [
+            "d2",
+            "p_value",
+            "flag",
+            "top_variable",
+            "top_share",
+            "status",
+        ]
+        .map(String::from),
+    );
+    let w = out.writer();
+    let io = |e: std::io::Error| CliError(format!("{}: {e}", args.out.display()));
+    writeln!(w, "{}", header.join(",")).map_err(io)?;
+    let mut row = 0u64;
+    let mut flagged = 0u64;
+    let mut incomplete = 0u64;
+    for_each_row(args, &file, |line, label, x| {
+        row += 1;
+        let label_field = match (&args.label, label) {
+            (Some(_), Some(l)) => format!(",{}", csv_field(l)),
+            (Some(_), None) => ",".to_string(),
+            _ => String::new(),
+        };
+        match x {
+            Some(x) => {
+                let (d2, p) = score(line, x)?;
+                let flag = p <= threshold;
+                flagged += u64::from(flag);
+                let why = model
+                    .explain(x, ContributionOrder::LargestFirst)
+                    .map_err(|e| CliError(format!("{}, line {line}: {e}", args.data.display())))?;
+                let top = why.top_variable();
+                let share = if d2 > 0.0 { why.terms()[top] / d2 } else { 0.0 };
+                writeln!(
+                    out.writer(),
+                    "{row}{label_field},{d2},{p},{flag},{},{share:.4},ok",
+                    csv_field(&file.variables()[top])
+                )
+                .map_err(io)?;
+            }
+            None => {
+                incomplete += 1;
+                writeln!(out.writer(), "{row}{label_field},,,,,,incomplete").map_err(io)?;
+            }
+        }
+        Ok(())
+    })?;
+    out.finish()?;
+    if incomplete > 0 {
+        eprintln!("mvdist: skipped {incomplete} incomplete row(s); they are in the output with status \"incomplete\"");
+    }
+    println!(
+        "scored {} rows against {} ({} reference, alpha {}, adjustment {}): {flagged} flagged; wrote {}",
+        row - incomplete,
+        args.model.display(),
+        if args.in_sample { "in-sample Beta" } else { "new-row F" },
+        args.alpha,
+        clap::ValueEnum::to_possible_value(&args.adjust).map_or_else(String::new, |v| v.get_name().to_string()),
+        args.out.display()
+    );
+    println!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
+    Ok(())
+}
+
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
