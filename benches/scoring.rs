@@ -109,6 +109,40 @@ fn bench_single(c: &mut Criterion) {
         });
     }
     one.finish();
+
+    // Throughput of one shared model scored from one and from two threads.
+    let mut shared = c.benchmark_group("score_one_shared");
+    let p = 16;
+    let x = correlated_rows(100_000, p, 5);
+    let model = DistanceModel::fit(x.view()).expect("fit");
+    shared.throughput(Throughput::Elements(x.nrows() as u64));
+    for threads in [1usize, 2] {
+        shared.bench_function(BenchmarkId::new("threads", threads), |b| {
+            b.iter(|| {
+                let chunk = x.nrows() / threads;
+                std::thread::scope(|s| {
+                    for t in 0..threads {
+                        let (model, x) = (&model, &x);
+                        s.spawn(move || {
+                            let mut acc = 0.0;
+                            for row in x.outer_iter().skip(t * chunk).take(chunk) {
+                                let r = model
+                                    .score_row(
+                                        row.as_slice().expect("row-major"),
+                                        RowOrigin::New,
+                                        0.01,
+                                    )
+                                    .expect("score");
+                                acc += r.p_value;
+                            }
+                            black_box(acc)
+                        });
+                    }
+                });
+            })
+        });
+    }
+    shared.finish();
 }
 
 /// Parallel read bandwidth (bytes/s) over a 1 GiB buffer, best of 5.

@@ -107,6 +107,11 @@ pub enum Error {
         /// What is wrong and what is allowed.
         reason: String,
     },
+    /// A file could not be read or written.
+    Io {
+        /// The path and the operating system's reason.
+        reason: String,
+    },
     /// A saved model or accumulator is malformed.
     Format {
         /// What is wrong with it.
@@ -173,6 +178,7 @@ impl fmt::Display for Error {
             ),
             Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
+            Error::Io { reason } => write!(f, "input/output error: {reason}"),
         }
     }
 }

@@ -79,6 +79,7 @@
 pub mod calibration;
 pub mod data;
 pub mod distance;
+pub mod drift;
 mod error;
 pub mod explain;
 mod linalg;

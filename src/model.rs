@@ -29,6 +29,18 @@ pub enum Estimator {
     },
     /// Location and scatter supplied by the caller.
     Supplied,
+    /// Exponentially weighted mean and covariance
+    /// ([`ForgettingModel`](crate::drift::ForgettingModel)).
+    ExponentiallyWeighted {
+        /// The forgetting factor `λ`.
+        forgetting: f64,
+    },
+    /// Mean and covariance of a sliding window of rows
+    /// ([`SlidingWindowModel`](crate::drift::SlidingWindowModel)).
+    SlidingWindow {
+        /// The window size.
+        capacity: usize,
+    },
 }
 
 /// A fitted model for squared generalized distances: a location `μ`, a
@@ -41,6 +53,29 @@ pub enum Estimator {
 ///
 /// Models are plain data: `Send + Sync`, cheap to share behind an `Arc`,
 /// and serializable with serde (deserializing re-validates the scatter).
+/// A service can score on many threads while another thread swaps in a
+/// refitted model:
+///
+/// ```
+/// use mvdist::{DistanceModel, RowOrigin};
+/// use ndarray::array;
+/// use std::sync::{Arc, RwLock};
+///
+/// let fit = |shift: f64| {
+///     let rows = array![[1.0, 2.0], [2.0, 2.9], [3.0, 4.2], [4.0, 4.8], [5.0, 6.1]] + shift;
+///     DistanceModel::fit(rows.view()).map(Arc::new)
+/// };
+/// let current = RwLock::new(fit(0.0)?);
+/// std::thread::scope(|s| {
+///     s.spawn(|| {
+///         // Scorers clone the Arc (cheap) and release the lock at once.
+///         let model = Arc::clone(&current.read().unwrap());
+///         model.score_row(&[3.0, 4.0], RowOrigin::New, 0.01).unwrap();
+///     });
+///     s.spawn(|| *current.write().unwrap() = fit(0.5).unwrap());
+/// });
+/// # Ok::<(), mvdist::Error>(())
+/// ```
 ///
 /// # Example
 /// ```
@@ -328,6 +363,51 @@ impl DistanceModel {
             x,
             Some(scratch),
         ))
+    }
+
+    /// As [`squared_distance`](Self::squared_distance) for single-precision
+    /// input (converted to `f64` before centring). Allocates nothing for
+    /// `p ≤ 64`.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance).
+    pub fn squared_distance_f32(&self, x: &[f32]) -> Result<f64> {
+        let p = self.dim();
+        if x.len() != p {
+            return Err(Error::ShapeMismatch {
+                what: "row length (number of variables)",
+                expected: p,
+                found: x.len(),
+            });
+        }
+        let mut stack = [0.0f64; 64];
+        let mut heap;
+        let wide: &mut [f64] = if p <= 64 {
+            &mut stack[..p]
+        } else {
+            heap = vec![0.0; p];
+            &mut heap
+        };
+        for (w, &v) in wide.iter_mut().zip(x) {
+            *w = f64::from(v);
+        }
+        self.squared_distance(wide)
+    }
+
+    /// As [`score_row`](Self::score_row) for single-precision input.
+    ///
+    /// # Errors
+    /// As [`score_row`](Self::score_row).
+    pub fn score_row_f32(&self, x: &[f32], origin: RowOrigin, alpha: f64) -> Result<RowScore> {
+        check_probability(alpha)?;
+        let reference = self.reference(origin)?;
+        let d2 = self.squared_distance_f32(x)?;
+        let p_value = reference.p_value(d2);
+        Ok(RowScore {
+            squared_distance: d2,
+            p_value,
+            flagged: p_value <= alpha,
+        })
     }
 
     /// Squared distance computed with iterative refinement in extended

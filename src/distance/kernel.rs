@@ -20,7 +20,7 @@ const TASK_ROWS: usize = 2048;
 /// splitting costs more than it saves.
 pub(crate) const SEQUENTIAL_BELOW: usize = 1 << 15;
 /// Largest `p` for which single-row scoring uses stack storage.
-const STACK_DIM: usize = 64;
+pub(crate) const STACK_DIM: usize = 64;
 
 #[inline(always)]
 fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
@@ -235,10 +235,82 @@ fn row_body<const FMA: bool>(w: &[f64], p: usize, c: &[f64]) -> f64 {
     d2
 }
 
+/// `‖L⁻¹ c‖²` for `p ≤ 64` as a sum of columns of `L⁻¹` scaled by `c_j`
+/// (independent vector updates, no horizontal sums until the end); `wt` is
+/// `(L⁻¹)ᵀ` row-major.
+#[inline(always)]
+fn column_body<const FMA: bool>(wt: &[f64], p: usize, c: &[f64]) -> f64 {
+    let mut z = [0.0f64; STACK_DIM];
+    for j in 0..p {
+        let cj = c[j];
+        let col = &wt[j * p + j..(j + 1) * p];
+        for (zi, &w) in z[j..p].iter_mut().zip(col) {
+            *zi = fmadd::<FMA>(w, cj, *zi);
+        }
+    }
+    let mut acc = [0.0f64; 4];
+    for (k, &v) in z[..p].iter().enumerate() {
+        acc[k % 4] = fmadd::<FMA>(v, v, acc[k % 4]);
+    }
+    (acc[0] + acc[1]) + (acc[2] + acc[3])
+}
+
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,fma")]
 fn row_avx2(w: &[f64], p: usize, c: &[f64]) -> f64 {
     row_body::<true>(w, p, c)
+}
+
+/// [`column_body`] for a dimension known at compile time: every column is
+/// used in full (its zeros above the diagonal included), so the loops unroll
+/// into straight-line vector code.
+#[inline(always)]
+fn column_fixed<const P: usize, const FMA: bool>(wt: &[f64], c: &[f64]) -> f64 {
+    let mut z = [0.0f64; P];
+    for (col, &cj) in wt.as_chunks::<P>().0.iter().zip(c) {
+        for i in 0..P {
+            z[i] = fmadd::<FMA>(col[i], cj, z[i]);
+        }
+    }
+    let mut acc = 0.0;
+    for v in z {
+        acc = fmadd::<FMA>(v, v, acc);
+    }
+    acc
+}
+
+#[inline(always)]
+fn column_dispatch<const FMA: bool>(wt: &[f64], p: usize, c: &[f64]) -> f64 {
+    match p {
+        1 => column_fixed::<1, FMA>(wt, c),
+        2 => column_fixed::<2, FMA>(wt, c),
+        3 => column_fixed::<3, FMA>(wt, c),
+        4 => column_fixed::<4, FMA>(wt, c),
+        5 => column_fixed::<5, FMA>(wt, c),
+        6 => column_fixed::<6, FMA>(wt, c),
+        7 => column_fixed::<7, FMA>(wt, c),
+        8 => column_fixed::<8, FMA>(wt, c),
+        9 => column_fixed::<9, FMA>(wt, c),
+        10 => column_fixed::<10, FMA>(wt, c),
+        11 => column_fixed::<11, FMA>(wt, c),
+        12 => column_fixed::<12, FMA>(wt, c),
+        13 => column_fixed::<13, FMA>(wt, c),
+        14 => column_fixed::<14, FMA>(wt, c),
+        15 => column_fixed::<15, FMA>(wt, c),
+        16 => column_fixed::<16, FMA>(wt, c),
+        20 => column_fixed::<20, FMA>(wt, c),
+        24 => column_fixed::<24, FMA>(wt, c),
+        32 => column_fixed::<32, FMA>(wt, c),
+        48 => column_fixed::<48, FMA>(wt, c),
+        64 => column_fixed::<64, FMA>(wt, c),
+        _ => column_body::<FMA>(wt, p, c),
+    }
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+fn column_avx2(wt: &[f64], p: usize, c: &[f64]) -> f64 {
+    column_dispatch::<true>(wt, p, c)
 }
 
 /// `‖L⁻¹ c‖²` for a centred vector `c` of length `p`.
@@ -267,6 +339,17 @@ pub(crate) fn squared_norm_centred(scatter: &Scatter, c: &[f64]) -> f64 {
                 z * z
             })
             .sum();
+    }
+    let wt = scatter.inverse_factor_t_slice();
+    if p <= STACK_DIM && wt.len() == p * p {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if has_avx2_fma() {
+                // SAFETY: the CPU supports AVX2 and FMA (checked at run time).
+                return unsafe { column_avx2(wt, p, c) };
+            }
+        }
+        return column_dispatch::<false>(wt, p, c);
     }
     whitened_norm(w, p, c)
 }

@@ -50,6 +50,9 @@ pub struct Scatter {
     factor: Vec<f64>,
     /// Row-major lower `L⁻¹`.
     inverse_factor: Vec<f64>,
+    /// `(L⁻¹)ᵀ` row-major (each column of `L⁻¹` contiguous), kept for the
+    /// single-row kernel when `p ≤ 64`; empty otherwise.
+    inverse_factor_t: Vec<f64>,
     log_det: f64,
     diagonal: bool,
 }
@@ -173,11 +176,23 @@ impl Scatter {
         if inverse_factor.iter().any(|v| !v.is_finite()) || !log_det.is_finite() {
             return Err(Error::NotPositiveDefinite { column: dim - 1 });
         }
+        let inverse_factor_t = if dim <= crate::distance::kernel::STACK_DIM {
+            let mut t = vec![0.0; dim * dim];
+            for i in 0..dim {
+                for j in 0..=i {
+                    t[j * dim + i] = inverse_factor[i * dim + j];
+                }
+            }
+            t
+        } else {
+            Vec::new()
+        };
         Ok(Scatter {
             dim,
             matrix,
             factor,
             inverse_factor,
+            inverse_factor_t,
             log_det,
             diagonal,
         })
@@ -240,6 +255,10 @@ impl Scatter {
 
     pub(crate) fn inverse_factor_slice(&self) -> &[f64] {
         &self.inverse_factor
+    }
+
+    pub(crate) fn inverse_factor_t_slice(&self) -> &[f64] {
+        &self.inverse_factor_t
     }
 
     pub(crate) fn factor_slice(&self) -> &[f64] {

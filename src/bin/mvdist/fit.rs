@@ -28,6 +28,9 @@ pub struct FitArgs {
     /// Leave out rows with a missing value (empty, NA, NaN) instead of stopping.
     #[arg(long)]
     pub skip_incomplete: bool,
+    /// Write the compact binary model file instead of JSON.
+    #[arg(long)]
+    pub binary: bool,
 }
 
 /// Turns a library error about fitting into a message naming columns.
@@ -75,7 +78,11 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
     }
     .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?;
     let file = ModelFile::new(table.names.clone(), model)?;
-    write_atomically(&args.out, &(file.to_json() + "\n"))?;
+    if args.binary {
+        crate::output::write_bytes_atomically(&args.out, &file.to_bytes())?;
+    } else {
+        write_atomically(&args.out, &(file.to_json() + "\n"))?;
+    }
     println!(
         "fitted a {} model on {} rows × {} variables ({}); wrote {}",
         clap::ValueEnum::to_possible_value(&args.estimator)

@@ -74,9 +74,14 @@ impl Drop for PendingFile {
 
 /// Writes `text` to `target` atomically.
 pub fn write_atomically(target: &Path, text: &str) -> Result<(), CliError> {
+    write_bytes_atomically(target, text.as_bytes())
+}
+
+/// Writes `bytes` to `target` atomically.
+pub fn write_bytes_atomically(target: &Path, bytes: &[u8]) -> Result<(), CliError> {
     let mut f = PendingFile::create(target)?;
     f.writer()
-        .write_all(text.as_bytes())
+        .write_all(bytes)
         .map_err(|e| CliError(format!("{}: {e}", target.display())))?;
     f.finish()
 }

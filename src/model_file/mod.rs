@@ -10,7 +10,8 @@
 //!   "n": 120,
 //!   "location": [1.048, 4.31],
 //!   "scatter": [[1.2e-5, 3.1e-5], [3.1e-5, 0.0121]],
-//!   "estimator": { "kind": "classical", "divisor": "unbiased" }
+//!   "estimator": { "kind": "classical", "divisor": "unbiased" },
+//!   "checksum": "crc32:5a1c03f2"
 //! }
 //! ```
 //!
@@ -23,6 +24,17 @@
 //! * `scatter` is the `p × p` matrix as nested rows; loading re-validates it
 //!   (a scatter that is no longer positive definite is refused).
 //! * `estimator` records how the location and scatter were estimated.
+//! * `checksum` is the CRC-32 of the compact JSON of all other fields, in
+//!   the order above, as eight hex digits. It is always written; on loading
+//!   it is verified when present (a hand-written file may leave it out).
+//!
+//! The same content has a compact binary form ([`ModelFile::to_bytes`]),
+//! with its own magic bytes, format version and CRC-32; [`ModelFile::load`]
+//! reads either.
+//!
+//! **Compatibility promise.** A build reads every format version up to its
+//! own ([`FORMAT_VERSION`]) and refuses newer ones with a message saying so.
+//! Within a format version, fields are only ever added as optional ones.
 //!
 //! Floating-point values are written with the shortest representation that
 //! reads back to the same `f64`, so a save–load round trip is exact.
@@ -40,10 +52,14 @@
 //! # Ok::<(), mvdist::Error>(())
 //! ```
 
+mod binary;
+mod crc32;
+
 use crate::error::{Error, Result};
 use crate::model::{DistanceModel, Estimator};
 use crate::scatter::Scatter;
 use serde::{Deserialize, Serialize};
+use std::path::Path;
 
 /// The format version this build writes and the newest it reads.
 pub const FORMAT_VERSION: u32 = 1;
@@ -66,6 +82,14 @@ struct FileData {
     location: Vec<f64>,
     scatter: Scatter,
     estimator: Estimator,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    checksum: Option<String>,
+}
+
+fn checksum_of(data: &FileData) -> String {
+    // The compact JSON of plain data cannot fail to serialize.
+    let text = serde_json::to_string(data).unwrap_or_default();
+    format!("crc32:{:08x}", crc32::crc32(text.as_bytes()))
 }
 
 #[derive(Deserialize)]
@@ -125,9 +149,85 @@ impl ModelFile {
             location: self.model.location().to_vec(),
             scatter: self.model.scatter().clone(),
             estimator: self.model.estimator().clone(),
+            checksum: None,
+        };
+        let checksum = checksum_of(&data);
+        let data = FileData {
+            checksum: Some(checksum),
+            ..data
         };
         // Serializing plain numbers, strings and vectors cannot fail.
         serde_json::to_string_pretty(&data).unwrap_or_default()
+    }
+
+    /// The model file in the compact binary form (see the module docs).
+    pub fn to_bytes(&self) -> Vec<u8> {
+        binary::encode(self)
+    }
+
+    /// Reads the compact binary form.
+    ///
+    /// # Errors
+    /// [`Error::Format`] for wrong magic bytes, a newer format version, a
+    /// truncated or corrupted file (checksum mismatch), or invalid contents.
+    pub fn from_bytes(bytes: &[u8]) -> Result<Self> {
+        binary::decode(bytes)
+    }
+
+    /// Reads either form, recognizing the binary one by its magic bytes.
+    ///
+    /// # Errors
+    /// As [`from_bytes`](Self::from_bytes) and [`from_json`](Self::from_json).
+    pub fn from_any(bytes: &[u8]) -> Result<Self> {
+        if bytes.starts_with(binary::MAGIC) {
+            return Self::from_bytes(bytes);
+        }
+        let text = std::str::from_utf8(bytes).map_err(|_| Error::Format {
+            reason: "neither a binary model file nor UTF-8 JSON".into(),
+        })?;
+        Self::from_json(text)
+    }
+
+    /// Reads a model file (either form) from disk.
+    ///
+    /// # Errors
+    /// [`Error::Io`] if the file cannot be read; otherwise as
+    /// [`from_any`](Self::from_any).
+    pub fn load(path: &Path) -> Result<Self> {
+        let bytes = std::fs::read(path).map_err(|e| Error::Io {
+            reason: format!("{}: {e}", path.display()),
+        })?;
+        Self::from_any(&bytes)
+    }
+
+    /// Writes the model file to disk, as JSON or in the binary form, under a
+    /// temporary name in the same folder first and renamed on success, so a
+    /// reader never sees a half-written file.
+    ///
+    /// # Errors
+    /// [`Error::Io`] if the file cannot be written.
+    pub fn save(&self, path: &Path, binary: bool) -> Result<()> {
+        let bytes = if binary {
+            self.to_bytes()
+        } else {
+            (self.to_json() + "\n").into_bytes()
+        };
+        let io = |e: std::io::Error| Error::Io {
+            reason: format!("{}: {e}", path.display()),
+        };
+        let name = path.file_name().ok_or_else(|| Error::Io {
+            reason: format!("{}: not a file name", path.display()),
+        })?;
+        let temp = path.with_file_name(format!(
+            ".{}.partial-{}",
+            name.to_string_lossy(),
+            std::process::id()
+        ));
+        let result = std::fs::write(&temp, &bytes).and_then(|_| std::fs::rename(&temp, path));
+        if result.is_err() {
+            let _ = std::fs::remove_file(&temp);
+        }
+        result.map_err(io)
     }
 
     /// Reads a model file, checking its format, version and contents.
@@ -165,9 +265,19 @@ impl ModelFile {
                 })
             }
         }
-        let data: FileData = serde_json::from_str(text).map_err(|e| Error::Format {
+        let mut data: FileData = serde_json::from_str(text).map_err(|e| Error::Format {
             reason: e.to_string(),
         })?;
+        if let Some(stored) = data.checksum.take() {
+            let computed = checksum_of(&data);
+            if stored != computed {
+                return Err(Error::Format {
+                    reason: format!(
+                        "checksum mismatch (stored {stored}, computed {computed}): the file was changed or corrupted"
+                    ),
+                });
+            }
+        }
         let model = DistanceModel::from_parts(data.location, data.scatter, data.n, data.estimator)
             .map_err(|e| Error::Format {
                 reason: e.to_string(),

@@ -1,0 +1,274 @@
+//! Exponential forgetting with an incrementally updated Cholesky factor.
+
+use super::factor::TrackedFactor;
+use super::DEFAULT_REFACTOR_EVERY;
+use crate::calibration::{Reference, RowOrigin};
+use crate::data::check_row_finite;
+use crate::error::{Error, Result};
+use crate::model::{DistanceModel, Estimator, RowScore};
+use crate::scatter::Scatter;
+
+/// Location and scatter under exponential forgetting, updated row by row in
+/// `O(p²)`; see the [module documentation](super).
+///
+/// The covariance is `M / D` with the reliability-weight denominator
+/// `D = W − Σw²/W` (`W = Σ w`, weights `λᵏ`); the effective number of rows
+/// is `W²/Σw²`, tending to `(1+λ)/(1−λ)`.
+#[derive(Clone, Debug)]
+pub struct ForgettingModel {
+    p: usize,
+    forgetting: f64,
+    count: u64,
+    weight_sum: f64,
+    weight_sq_sum: f64,
+    mean: Vec<f64>,
+    /// Row-major co-moment matrix, kept for refactorization.
+    comoment: Vec<f64>,
+    factor: TrackedFactor,
+    factor_ready: bool,
+    since_refactor: u64,
+    refactor_every: u64,
+    delta: Vec<f64>,
+}
+
+impl ForgettingModel {
+    /// A model of `dim` variables with forgetting factor `λ` in `(0, 1]`.
+    ///
+    /// # Errors
+    /// [`Error::Empty`] for `dim = 0`; [`Error::InvalidParameter`] for `λ`
+    /// outside `(0, 1]`.
+    pub fn new(dim: usize, forgetting: f64) -> Result<Self> {
+        if dim == 0 {
+            return Err(Error::Empty { what: "variables" });
+        }
+        if !(forgetting > 0.0 && forgetting <= 1.0) {
+            return Err(Error::invalid(
+                "forgetting factor",
+                format!("{forgetting} is not in (0, 1]"),
+            ));
+        }
+        Ok(ForgettingModel {
+            p: dim,
+            forgetting,
+            count: 0,
+            weight_sum: 0.0,
+            weight_sq_sum: 0.0,
+            mean: vec![0.0; dim],
+            comoment: vec![0.0; dim * dim],
+            factor: TrackedFactor::zeros(dim),
+            factor_ready: false,
+            since_refactor: 0,
+            refactor_every: DEFAULT_REFACTOR_EVERY,
+            delta: vec![0.0; dim],
+        })
+    }
+
+    /// Sets how many updates may pass between refactorizations (at least 1;
+    /// `u64::MAX` never refactorizes once the factor exists).
+    pub fn with_refactor_every(mut self, rows: u64) -> Self {
+        self.refactor_every = rows.max(1);
+        self
+    }
+
+    /// Number of variables.
+    pub fn dim(&self) -> usize {
+        self.p
+    }
+
+    /// Rows seen.
+    pub fn count(&self) -> u64 {
+        self.count
+    }
+
+    /// Effective number of rows `W²/Σw²`.
+    pub fn effective_sample_size(&self) -> f64 {
+        if self.weight_sq_sum > 0.0 {
+            self.weight_sum * self.weight_sum / self.weight_sq_sum
+        } else {
+            0.0
+        }
+    }
+
+    /// The current location.
+    pub fn location(&self) -> &[f64] {
+        &self.mean
+    }
+
+    /// Whether the scatter is available (enough non-degenerate rows seen).
+    pub fn is_ready(&self) -> bool {
+        self.factor_ready
+    }
+
+    fn denominator(&self) -> f64 {
+        self.weight_sum - self.weight_sq_sum / self.weight_sum
+    }
+
+    /// Adds a row, discounting earlier rows by `λ`.
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`] or [`Error::NonFinite`]; the model is
+    /// unchanged on error.
+    pub fn update(&mut self, x: &[f64]) -> Result<()> {
+        let p = self.p;
+        if x.len() != p {
+            return Err(Error::ShapeMismatch {
+                what: "row length (number of variables)",
+                expected: p,
+                found: x.len(),
+            });
+        }
+        check_row_finite(x, self.count as usize)?;
+        let l = self.forgetting;
+        let w_old = l * self.weight_sum;
+        let w_new = w_old + 1.0;
+        let c = w_old / w_new;
+        for j in 0..p {
+            self.delta[j] = x[j] - self.mean[j];
+            self.mean[j] += self.delta[j] / w_new;
+        }
+        for i in 0..p {
+            for j in 0..p {
+                self.comoment[i * p + j] =
+                    l * self.comoment[i * p + j] + c * self.delta[i] * self.delta[j];
+            }
+        }
+        self.weight_sum = w_new;
+        self.weight_sq_sum = l * l * self.weight_sq_sum + 1.0;
+        self.count += 1;
+        self.since_refactor += 1;
+        if self.factor_ready {
+            let ok =
+                self.factor.scale_and_update(l, &self.delta, c).is_ok() && self.factor.is_valid();
+            if !ok || self.since_refactor >= self.refactor_every {
+                self.refactor();
+            }
+        } else if self.count > p as u64
+            && (self.since_refactor >= p as u64 || self.count == p as u64 + 1)
+        {
+            self.refactor();
+        }
+        Ok(())
+    }
+
+    fn refactor(&mut self) {
+        self.since_refactor = 0;
+        self.factor_ready = self.factor.refactor(&self.comoment).is_ok() && self.factor.is_valid();
+    }
+
+    fn ready(&self) -> Result<()> {
+        if self.factor_ready {
+            Ok(())
+        } else {
+            Err(Error::TooFewRows {
+                rows: self.count as usize,
+                needed: self.p + 1,
+                columns: self.p,
+            })
+        }
+    }
+
+    /// Squared distance of `x` to the current location under the current
+    /// scatter, in `O(p²)`; no allocation for `p ≤ 64`.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] before the scatter is available; shape and
+    /// finiteness errors as for [`DistanceModel::squared_distance`].
+    pub fn squared_distance(&self, x: &[f64]) -> Result<f64> {
+        self.ready()?;
+        if x.len() != self.p {
+            return Err(Error::ShapeMismatch {
+                what: "row length (number of variables)",
+                expected: self.p,
+                found: x.len(),
+            });
+        }
+        check_row_finite(x, 0)?;
+        let mut stack = [0.0f64; 64];
+        let mut heap;
+        let (c, scratch): (&mut [f64], &mut [f64]) = if self.p <= 32 {
+            let (a, b) = stack.split_at_mut(32);
+            (&mut a[..self.p], &mut b[..self.p])
+        } else {
+            heap = vec![0.0; 2 * self.p];
+            heap.split_at_mut(self.p)
+        };
+        for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(&self.mean) {
+            *ci = xi - mi;
+        }
+        let d2 = self.denominator() * self.factor.whitened_norm(c, scratch);
+        if d2.is_finite() {
+            Ok(d2)
+        } else {
+            Err(Error::Overflow { row: 0 })
+        }
+    }
+
+    /// The reference for new rows: F with `n` the effective number of rows
+    /// (rounded down), an approximation since forgetting weights are
+    /// unequal.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] while the effective number of rows is at most `p`.
+    pub fn reference(&self) -> Result<Reference> {
+        Reference::for_origin(
+            RowOrigin::New,
+            self.effective_sample_size().floor() as usize,
+            self.p,
+        )
+    }
+
+    /// Scores a row: squared distance, p-value and flag at `alpha`.
+    ///
+    /// # Errors
+    /// As [`squared_distance`](Self::squared_distance) and
+    /// [`reference`](Self::reference); `alpha` outside (0, 1).
+    pub fn score_row(&self, x: &[f64], alpha: f64) -> Result<RowScore> {
+        crate::calibration::check_probability(alpha)?;
+        let d2 = self.squared_distance(x)?;
+        let p_value = self.reference()?.p_value(d2);
+        Ok(RowScore {
+            squared_distance: d2,
+            p_value,
+            flagged: p_value <= alpha,
+        })
+    }
+
+    /// The current lower Cholesky factor of the covariance, row-major
+    /// (`Σ = L Lᵀ`).
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] before the scatter is available.
+    pub fn covariance_factor(&self) -> Result<Vec<f64>> {
+        self.ready()?;
+        let s = self.denominator().sqrt();
+        Ok(self.factor.row_major().into_iter().map(|v| v / s).collect())
+    }
+
+    /// The current covariance matrix, row-major.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] before the scatter is available.
+    pub fn covariance(&self) -> Result<Vec<f64>> {
+        self.ready()?;
+        let d = self.denominator();
+        Ok(self.comoment.iter().map(|m| m / d).collect())
+    }
+
+    /// A frozen [`DistanceModel`] of the current state (for saving or for
+    /// batch scoring), with sample size the effective number of rows.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] before the scatter is available; the errors of
+    /// [`Scatter::from_row_major`].
+    pub fn snapshot(&self) -> Result<DistanceModel> {
+        let scatter = Scatter::from_row_major(&self.covariance()?, self.p)?;
+        DistanceModel::from_parts(
+            self.mean.clone(),
+            scatter,
+            (self.effective_sample_size().floor() as usize).max(1),
+            Estimator::ExponentiallyWeighted {
+                forgetting: self.forgetting,
+            },
+        )
+    }
+}

@@ -1,0 +1,108 @@
+//! Drifting models: the incrementally updated Cholesky factor against a
+//! fresh factorization after a million updates. Rows are the first eight
+//! columns of the Wisconsin breast-cancer data (open dataset bundled with
+//! scikit-learn; tests/fixtures/breast_cancer_distances.json), replayed in
+//! a loop.
+
+mod common;
+use mvdist::drift::{ForgettingModel, SlidingWindowModel};
+use mvdist::moments::{Divisor, MomentAccumulator};
+use mvdist::{DistanceModel, Scatter};
+use ndarray::{s, Array2};
+
+fn replayed_rows(total: usize, p: usize) -> Array2<f64> {
+    let f = common::fixture("breast_cancer_distances.json");
+    let x = common::matrix(&f["data"]);
+    let n = x.nrows();
+    // A slow drift on top of the replayed rows, so that old rows matter.
+    Array2::from_shape_fn((total, p), |(i, j)| {
+        x[(i % n, j)] * (1.0 + 0.2 * (i as f64 / total as f64))
+    })
+}
+
+fn max_rel(a: &[f64], b: &[f64]) -> f64 {
+    let scale = b.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+    a.iter()
+        .zip(b)
+        .fold(0.0f64, |m, (x, y)| m.max((x - y).abs() / scale))
+}
+
+fn fresh_factor(cov: &Array2<f64>) -> Vec<f64> {
+    Scatter::new(cov.view())
+        .unwrap()
+        .factor()
+        .iter()
+        .copied()
+        .collect()
+}
+
+#[test]
+fn forgetting_factor_matches_a_fresh_factorization_after_a_million_updates() {
+    let (total, p, lambda) = (1_000_000, 8, 0.999);
+    let x = replayed_rows(total, p);
+    for refactor_every in [mvdist::drift::DEFAULT_REFACTOR_EVERY, u64::MAX] {
+        let mut model = ForgettingModel::new(p, lambda)
+            .unwrap()
+            .with_refactor_every(refactor_every);
+        for row in x.outer_iter() {
+            model.update(row.as_slice().unwrap()).unwrap();
+        }
+        // Direct computation: weights λ^(N−1−i), centred two-pass batch moments.
+        let weights: Vec<f64> = (0..total)
+            .map(|i| lambda.powi((total - 1 - i) as i32))
+            .collect();
+        let acc = MomentAccumulator::from_weighted_rows(x.view(), &weights).unwrap();
+        let cov = acc.covariance(Divisor::Unbiased).unwrap();
+        let e = max_rel(&model.covariance_factor().unwrap(), &fresh_factor(&cov));
+        assert!(e < 1e-9, "refactor every {refactor_every}: {e:e}");
+        let m = max_rel(model.location(), acc.mean());
+        assert!(m < 1e-12, "{m:e}");
+        assert!((model.effective_sample_size() - (1.0 + lambda) / (1.0 - lambda)).abs() < 1e-6);
+    }
+}
+
+#[test]
+fn sliding_window_matches_a_fresh_fit_of_its_rows_after_a_million_updates() {
+    let (total, p, w) = (1_000_000, 8, 500);
+    let x = replayed_rows(total, p);
+    let mut model = SlidingWindowModel::new(p, w).unwrap();
+    for row in x.outer_iter() {
+        model.update(row.as_slice().unwrap()).unwrap();
+    }
+    let last = x.slice(s![total - w.., ..]);
+    let fresh = DistanceModel::fit(last).unwrap();
+    let e = max_rel(
+        &model.covariance_factor().unwrap(),
+        &fresh.scatter().factor().iter().copied().collect::<Vec<_>>(),
+    );
+    assert!(e < 1e-9, "{e:e}");
+    for i in [0, 17, 499] {
+        let row = last.row(i).to_vec();
+        let a = model.squared_distance(&row).unwrap();
+        let b = fresh.squared_distance(&row).unwrap();
+        assert!((a - b).abs() < 1e-9 * b, "{a} vs {b}");
+    }
+    let snap = model.snapshot().unwrap();
+    assert_eq!(snap.sample_size(), w);
+}
+
+#[test]
+fn drifting_models_refuse_to_score_until_ready_and_check_input() {
+    let mut f = ForgettingModel::new(3, 0.9).unwrap();
+    let mut w = SlidingWindowModel::new(3, 10).unwrap();
+    assert!(f.squared_distance(&[0.0, 0.0, 0.0]).is_err());
+    assert!(w.squared_distance(&[0.0, 0.0, 0.0]).is_err());
+    // A constant column keeps the scatter singular: no panic, no score.
+    for k in 0..50 {
+        let r = [k as f64, (k * k % 7) as f64, 1.0];
+        f.update(&r).unwrap();
+        w.update(&r).unwrap();
+    }
+    assert!(!f.is_ready());
+    assert!(f.squared_distance(&[0.0, 0.0, 1.0]).is_err());
+    assert!(w.score_row(&[0.0, 0.0, 1.0], 0.01).is_err());
+    assert!(f.update(&[f64::NAN, 0.0, 0.0]).is_err());
+    assert!(w.update(&[1.0, 2.0]).is_err());
+    assert!(ForgettingModel::new(3, 1.5).is_err());
+    assert!(SlidingWindowModel::new(3, 4).is_err());
+}
