@@ -87,6 +87,8 @@ mod model;
 pub mod model_file;
 pub mod moments;
 pub mod scatter;
+#[cfg(feature = "datafusion")]
+pub mod sql_functions;
 pub mod whitening;
 
 pub use calibration::{Adjustment, Reference, RowOrigin};

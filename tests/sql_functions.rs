@@ -1,0 +1,185 @@
+//! DataFusion SQL functions: partitioned fits equal the in-memory fit,
+//! SQL scoring equals the library's, bad columns give the engine's error
+//! with our message. Data: the first eight columns of the Wisconsin
+//! breast-cancer data (open dataset bundled with scikit-learn).
+#![cfg(feature = "datafusion")]
+
+mod common;
+use datafusion::arrow::array::{ArrayRef, Float64Array, StringArray};
+use datafusion::arrow::datatypes::{DataType, Field, Schema};
+use datafusion::arrow::record_batch::RecordBatch;
+use datafusion::datasource::MemTable;
+use datafusion::prelude::{SessionConfig, SessionContext};
+use mvdist::model_file::ModelFile;
+use mvdist::DistanceModel;
+use ndarray::Array2;
+use std::sync::Arc;
+
+const P: usize = 8;
+
+fn data() -> Array2<f64> {
+    let f = common::fixture("breast_cancer_distances.json");
+    common::matrix(&f["data"])
+        .slice(ndarray::s![.., ..P])
+        .to_owned()
+}
+
+fn names() -> Vec<String> {
+    (0..P).map(|j| format!("c{j}")).collect()
+}
+
+/// The rows as a table of `partitions` partitions (one batch each).
+fn context(x: &Array2<f64>, partitions: usize, extra_text: bool) -> SessionContext {
+    let mut fields: Vec<Field> = names()
+        .iter()
+        .map(|n| Field::new(n, DataType::Float64, true))
+        .collect();
+    if extra_text {
+        fields.push(Field::new("label", DataType::Utf8, true));
+    }
+    let schema = Arc::new(Schema::new(fields));
+    let n = x.nrows();
+    let mut parts = Vec::new();
+    for k in 0..partitions {
+        let (lo, hi) = (k * n / partitions, (k + 1) * n / partitions);
+        let mut cols: Vec<ArrayRef> = (0..P)
+            .map(|j| {
+                Arc::new(Float64Array::from(
+                    (lo..hi).map(|i| x[(i, j)]).collect::<Vec<_>>(),
+                )) as ArrayRef
+            })
+            .collect();
+        if extra_text {
+            cols.push(Arc::new(StringArray::from(
+                (lo..hi).map(|i| format!("row{i}")).collect::<Vec<_>>(),
+            )));
+        }
+        parts.push(vec![RecordBatch::try_new(schema.clone(), cols).unwrap()]);
+    }
+    let ctx =
+        SessionContext::new_with_config(SessionConfig::new().with_target_partitions(partitions));
+    ctx.register_table("t", Arc::new(MemTable::try_new(schema, parts).unwrap()))
+        .unwrap();
+    mvdist::sql_functions::register(&ctx);
+    ctx
+}
+
+async fn fit_sql(ctx: &SessionContext, args: &str) -> datafusion::common::Result<String> {
+    let batches = ctx
+        .sql(&format!("SELECT mvdist_fit({args}) AS model FROM t"))
+        .await?
+        .collect()
+        .await?;
+    let col = batches[0]
+        .column(0)
+        .as_any()
+        .downcast_ref::<StringArray>()
+        .unwrap()
+        .value(0)
+        .to_string();
+    Ok(col)
+}
+
+fn rel(a: f64, b: f64) -> f64 {
+    (a - b).abs() / b.abs().max(1e-300)
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn partitioned_fit_equals_in_memory_fit() {
+    let x = data();
+    let local = DistanceModel::fit(x.view()).unwrap();
+    for partitions in [1, 8, 13] {
+        let ctx = context(&x, partitions, false);
+        let json = fit_sql(&ctx, &names().join(", ")).await.unwrap();
+        let file = ModelFile::from_json(&json).unwrap();
+        assert_eq!(file.variables(), &names()[..]);
+        let m = file.model();
+        assert_eq!(m.sample_size(), x.nrows());
+        for (a, b) in m.location().iter().zip(local.location()) {
+            assert!(rel(*a, *b) < 1e-12, "{partitions}: {a} vs {b}");
+        }
+        let scale = local
+            .scatter()
+            .matrix()
+            .iter()
+            .fold(0.0f64, |s, v| s.max(v.abs()));
+        for (a, b) in m
+            .scatter()
+            .matrix()
+            .iter()
+            .zip(local.scatter().matrix().iter())
+        {
+            assert!((a - b).abs() <= 1e-12 * scale, "{partitions}: {a} vs {b}");
+        }
+    }
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn sql_scoring_equals_library_scoring() {
+    let x = data();
+    let ctx = context(&x, 8, true);
+    let cols = names().join(", ");
+    let sql = format!(
+        "SELECT label, mvdist_d2(m.model, {cols}) AS d2, mvdist_p_value(m.model, {cols}) AS p, \
+         mvdist_flag(m.model, 0.01, {cols}) AS flag \
+         FROM t CROSS JOIN (SELECT mvdist_fit({cols}) AS model FROM t) m ORDER BY label"
+    );
+    let batches = ctx.sql(&sql).await.unwrap().collect().await.unwrap();
+    let local = DistanceModel::fit(x.view()).unwrap();
+    let scores = local.score(x.view(), mvdist::RowOrigin::New).unwrap();
+    let mut seen = 0;
+    for b in &batches {
+        let label = b.column(0).as_any().downcast_ref::<StringArray>().unwrap();
+        let d2 = b.column(1).as_any().downcast_ref::<Float64Array>().unwrap();
+        let p = b.column(2).as_any().downcast_ref::<Float64Array>().unwrap();
+        let flag = b
+            .column(3)
+            .as_any()
+            .downcast_ref::<datafusion::arrow::array::BooleanArray>()
+            .unwrap();
+        for i in 0..b.num_rows() {
+            let row: usize = label.value(i)[3..].parse().unwrap();
+            assert!(rel(d2.value(i), scores.squared_distances()[row]) < 1e-10);
+            assert!((p.value(i) - scores.p_values()[row]).abs() < 1e-12);
+            assert_eq!(flag.value(i), scores.p_values()[row] <= 0.01);
+            seen += 1;
+        }
+    }
+    assert_eq!(seen, x.nrows());
+}
+
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn bad_columns_give_engine_errors_with_our_message() {
+    let x = data();
+    let ctx = context(&x, 4, true);
+    let err = fit_sql(&ctx, "c0, c1, label")
+        .await
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("mvdist_fit: argument 3 has type Utf8"),
+        "{err}"
+    );
+    let err = fit_sql(&ctx, "c0, c1, CASE WHEN c2 > 20 THEN NULL ELSE c2 END")
+        .await
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("mvdist_fit") && err.contains("NULL"), "{err}");
+    let err = fit_sql(&ctx, "c0, c1, c0 + c1")
+        .await
+        .unwrap_err()
+        .to_string();
+    assert!(err.contains("linear combination"), "{err}");
+    let err = ctx
+        .sql("SELECT mvdist_d2('not a model', c0) FROM t")
+        .await
+        .unwrap()
+        .collect()
+        .await
+        .unwrap_err()
+        .to_string();
+    assert!(
+        err.contains("mvdist_d2") && err.contains("not a model file"),
+        "{err}"
+    );
+}
