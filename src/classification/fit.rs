@@ -86,6 +86,9 @@ pub struct ClassifierOptions<L> {
     pub priors: Priors<L>,
     /// How group scatters are estimated (default: classical).
     pub estimator: GroupScatterEstimator,
+    /// The divisor of the scatters (default: unbiased, `n − G` pooled and
+    /// `n_g − 1` per group; maximum likelihood divides by `n` and `n_g`).
+    pub divisor: Divisor,
 }
 
 impl<L> ClassifierOptions<L> {
@@ -96,7 +99,14 @@ impl<L> ClassifierOptions<L> {
             rule,
             priors: Priors::Proportional,
             estimator: GroupScatterEstimator::Classical,
+            divisor: Divisor::Unbiased,
         }
+    }
+
+    /// The same options with another scatter divisor.
+    pub fn with_divisor(mut self, divisor: Divisor) -> Self {
+        self.divisor = divisor;
+        self
     }
 
     /// The same options with other priors.
@@ -164,6 +174,7 @@ pub struct Classifier<L> {
     pub(crate) dim: usize,
     pub(crate) rule: Rule,
     pub(crate) estimator: GroupScatterEstimator,
+    pub(crate) divisor: Divisor,
     pub(crate) prior_kind: PriorKind,
     pub(crate) priors: Vec<f64>,
     /// `G × p`, row-major.
@@ -245,7 +256,7 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
         let estimator = options.estimator;
         let (pooled, group_scatters) = match (estimator, options.rule) {
             (GroupScatterEstimator::Classical, Rule::Linear) => {
-                (Some(moments.pooled_scatter(Divisor::Unbiased)?), Vec::new())
+                (Some(moments.pooled_scatter(options.divisor)?), Vec::new())
             }
             (GroupScatterEstimator::Classical, Rule::Quadratic) => {
                 let mut scatters = Vec::with_capacity(g_count);
@@ -258,14 +269,14 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
                         });
                     }
                     let s = a
-                        .scatter(Divisor::Unbiased)
+                        .scatter(options.divisor)
                         .map_err(|cause| Error::InGroup {
                             group: g,
                             cause: Box::new(cause),
                         })?;
                     scatters.push(s);
                 }
-                (moments.pooled_scatter(Divisor::Unbiased).ok(), scatters)
+                (moments.pooled_scatter(options.divisor).ok(), scatters)
             }
         };
         let mut whitened_centroids = Vec::new();
@@ -285,14 +296,23 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
                         out[i] = (0..=i).map(|j| w[i * p + j] * (mu[j] - centre[j])).sum();
                     }
                 }
+                // d²_unbiased = d² · (divisor / (n − G)).
+                let ratio = divisor_of(options.divisor, n, g_count) / (n - g_count) as f64;
                 for &ng in &counts {
-                    references.push(TypicalityReference::pooled_scatter(ng, n - g_count, p)?);
+                    references.push(
+                        TypicalityReference::pooled_scatter(ng, n - g_count, p)?
+                            .for_scaled_distances(1.0 / ratio),
+                    );
                 }
             }
             Rule::Quadratic => {
                 for (g, s) in group_scatters.iter().enumerate() {
                     score_offsets[g] -= 0.5 * s.log_determinant();
-                    references.push(TypicalityReference::own_scatter(counts[g], p)?);
+                    let ng = counts[g];
+                    let ratio = divisor_of(options.divisor, ng, 1) / (ng - 1) as f64;
+                    references.push(
+                        TypicalityReference::own_scatter(ng, p)?.for_scaled_distances(1.0 / ratio),
+                    );
                 }
             }
         }
@@ -308,6 +328,7 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
             dim: p,
             rule: options.rule,
             estimator,
+            divisor: options.divisor,
             prior_kind,
             priors,
             centroids,
@@ -365,6 +386,11 @@ impl<L> Classifier<L> {
         self.rule
     }
 
+    /// The divisor of the scatters.
+    pub fn divisor(&self) -> Divisor {
+        self.divisor
+    }
+
     /// The group scatter estimator.
     pub fn estimator(&self) -> GroupScatterEstimator {
         self.estimator
@@ -401,6 +427,14 @@ impl<L> Classifier<L> {
     /// `g`'s centroid; `None` if `g` is not a group number.
     pub fn typicality_reference(&self, g: usize) -> Option<TypicalityReference> {
         self.references.get(g).copied()
+    }
+}
+
+/// The divisor of a scatter from `rows` rows in `groups` groups.
+pub(crate) fn divisor_of(divisor: Divisor, rows: usize, groups: usize) -> f64 {
+    match divisor {
+        Divisor::Unbiased => (rows - groups) as f64,
+        Divisor::MaximumLikelihood => rows as f64,
     }
 }
 

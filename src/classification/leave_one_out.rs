@@ -30,11 +30,13 @@
 //!   `(ν−1)/ν · (d²_h + k c_h² / (ν (1 − k a)))` for `h ≠ g` and
 //!   `(ν−1)/ν · k² d²_g / (1 − k a)` for the row's own group.
 //!
-//! Proportional priors are recomputed without the row. The cost is that of
+//! With the maximum-likelihood divisor, `n_g − 1`, `n_g − 2`, `ν` and
+//! `ν − 1` become `n_g`, `n_g − 1`, `n` and `n − 1`. Proportional priors
+//! are recomputed without the row. The cost is that of
 //! one prediction pass plus `O(G²)` per row, instead of `n` refits.
 
 use super::confusion::ConfusionMatrix;
-use super::fit::{Classifier, ClassifierOptions, GroupScatterEstimator, PriorKind, Rule};
+use super::fit::{divisor_of, Classifier, ClassifierOptions, GroupScatterEstimator, PriorKind, Rule};
 use super::predict::{PredictOptions, Predictions};
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
@@ -140,7 +142,11 @@ impl LeaveOneOut {
         let log_dets: Vec<f64> = c.group_scatters.iter().map(|s| s.log_determinant()).collect();
         let ln_priors: Vec<f64> = c.priors.iter().map(|q| q.ln()).collect();
 
-        let (rule, counts, prior_kind) = (c.rule, c.counts.as_slice(), c.prior_kind);
+        let (rule, counts, prior_kind, divisor) =
+            (c.rule, c.counts.as_slice(), c.prior_kind, c.divisor);
+        // Pooled divisors with and without one row.
+        let nu = divisor_of(divisor, n, g_count);
+        let nu_left_out = divisor_of(divisor, n - 1, g_count);
         let ln_prior = |h: usize, g: usize| match prior_kind {
             PriorKind::Proportional => {
                 let nh = counts[h] - usize::from(h == g);
@@ -168,13 +174,12 @@ impl LeaveOneOut {
                     // Scores go to `post` first.
                     match rule {
                         Rule::Linear => {
-                            let nu = (n - g_count) as f64;
                             let a_g = d_full[g] / nu;
                             let denom = 1.0 - k * a_g;
                             if !(denom > 0.0) {
                                 return Err(singular_without(i));
                             }
-                            let ratio = (nu - 1.0) / nu;
+                            let ratio = nu_left_out / nu;
                             for h in 0..g_count {
                                 d[h] = if h == g {
                                     ratio * k * k * d_full[g] / denom
@@ -186,7 +191,9 @@ impl LeaveOneOut {
                             }
                         }
                         Rule::Quadratic => {
-                            let a_g = d_full[g] / (ng - 1.0);
+                            let dv = divisor_of(divisor, counts[g], 1);
+                            let dv_left_out = divisor_of(divisor, counts[g] - 1, 1);
+                            let a_g = d_full[g] / dv;
                             let denom = 1.0 - k * a_g;
                             if !(denom > 0.0) {
                                 return Err(singular_without(i));
@@ -194,10 +201,10 @@ impl LeaveOneOut {
                             for h in 0..g_count {
                                 let (dh, log_det) = if h == g {
                                     (
-                                        (ng - 2.0) * k * k * a_g / denom,
+                                        dv_left_out * k * k * a_g / denom,
                                         log_dets[g]
                                             + denom.ln()
-                                            + p as f64 * ((ng - 1.0) / (ng - 2.0)).ln(),
+                                            + p as f64 * (dv / dv_left_out).ln(),
                                     )
                                 } else {
                                     (d_full[h], log_dets[h])

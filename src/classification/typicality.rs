@@ -32,7 +32,10 @@ use crate::error::{Error, Result};
 
 /// The distribution of a new row's squared distance to its group's
 /// centroid, under the scatter the classification rule uses for that group.
-/// See the [module documentation](self) for the formulas.
+/// See the [module documentation](self) for the formulas, which are stated
+/// for the unbiased divisors; a classifier fitted with
+/// [`Divisor::MaximumLikelihood`](crate::Divisor::MaximumLikelihood)
+/// returns references adjusted to its (larger) distances.
 ///
 /// # Example
 /// ```
@@ -49,16 +52,21 @@ use crate::error::{Error, Result};
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
-pub enum TypicalityReference {
-    /// The group's own scatter (quadratic rule): the new-row F reference
-    /// with the group's rows.
-    OwnScatter(Reference),
-    /// The pooled within-group scatter (linear rule).
-    PooledScatter {
-        /// The F distribution of the scaled statistic, F(p, ν − p + 1).
+pub struct TypicalityReference {
+    kind: Kind,
+    /// The squared distance under the unbiased scatter per unit of the
+    /// squared distance the classifier reports.
+    to_unbiased: f64,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq)]
+enum Kind {
+    /// The group's own scatter: the new-row reference with its rows.
+    Own(Reference),
+    /// The pooled scatter: `d² = per_unit · F`, `F ~ F(p, ν − p + 1)`.
+    Pooled {
         distribution: FDistribution,
-        /// `d²` per unit of the F statistic: `ν·p·(n_g+1) / ((ν−p+1)·n_g)`.
-        squared_distance_per_unit: f64,
+        per_unit: f64,
     },
 }
 
@@ -70,14 +78,15 @@ impl TypicalityReference {
     /// As [`Reference::new_row`]: [`Error::TooFewRows`] unless
     /// `group_rows > dim`.
     pub fn own_scatter(group_rows: usize, dim: usize) -> Result<Self> {
-        Ok(TypicalityReference::OwnScatter(Reference::new_row(
-            group_rows, dim,
-        )?))
+        Ok(TypicalityReference {
+            kind: Kind::Own(Reference::new_row(group_rows, dim)?),
+            to_unbiased: 1.0,
+        })
     }
 
     /// The reference for a group of `group_rows` rows measured with a
     /// pooled scatter on `pooled_dof` degrees of freedom (`n − G` for `n`
-    /// rows in `G` groups) of `dim` variables.
+    /// rows in `G` groups, the divisor of the scatter) of `dim` variables.
     ///
     /// # Errors
     /// [`Error::InvalidParameter`] if `dim` or `group_rows` is 0;
@@ -101,21 +110,33 @@ impl TypicalityReference {
         }
         let (nu, p, ng) = (pooled_dof as f64, dim as f64, group_rows as f64);
         let distribution = FDistribution::new(p, nu - p + 1.0)?;
-        Ok(TypicalityReference::PooledScatter {
-            distribution,
-            squared_distance_per_unit: nu * p * (ng + 1.0) / ((nu - p + 1.0) * ng),
+        Ok(TypicalityReference {
+            kind: Kind::Pooled {
+                distribution,
+                per_unit: nu * p * (ng + 1.0) / ((nu - p + 1.0) * ng),
+            },
+            to_unbiased: 1.0,
         })
+    }
+
+    /// The same reference for distances measured with a scatter whose
+    /// divisor is `1 / factor` times the unbiased one (`d²_unbiased =
+    /// factor · d²`).
+    pub(crate) fn for_scaled_distances(mut self, factor: f64) -> Self {
+        self.to_unbiased = factor;
+        self
     }
 
     /// The typicality of a row with squared distance `d2` to the group's
     /// centroid: `P(D² > d2)` for a new row of the group. NaN for NaN.
     pub fn p_value(&self, d2: f64) -> f64 {
-        match self {
-            TypicalityReference::OwnScatter(r) => r.p_value(d2),
-            TypicalityReference::PooledScatter {
+        let d2 = d2 * self.to_unbiased;
+        match self.kind {
+            Kind::Own(r) => r.p_value(d2),
+            Kind::Pooled {
                 distribution,
-                squared_distance_per_unit,
-            } => distribution.sf(d2 / squared_distance_per_unit),
+                per_unit,
+            } => distribution.sf(d2 / per_unit),
         }
     }
 
@@ -125,22 +146,20 @@ impl TypicalityReference {
     /// # Errors
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn cutoff(&self, alpha: f64) -> Result<f64> {
-        match self {
-            TypicalityReference::OwnScatter(r) => r.cutoff(alpha),
-            TypicalityReference::PooledScatter {
+        let c = match self.kind {
+            Kind::Own(r) => r.cutoff(alpha)?,
+            Kind::Pooled {
                 distribution,
-                squared_distance_per_unit,
-            } => {
-                let c = distribution.isf(alpha)? * squared_distance_per_unit;
-                if c.is_finite() {
-                    Ok(c)
-                } else {
-                    Err(Error::invalid(
-                        "alpha",
-                        format!("the cutoff for alpha = {alpha} is beyond the largest finite number"),
-                    ))
-                }
-            }
+                per_unit,
+            } => distribution.isf(alpha)? * per_unit,
+        } / self.to_unbiased;
+        if c.is_finite() {
+            Ok(c)
+        } else {
+            Err(Error::invalid(
+                "alpha",
+                format!("the cutoff for alpha = {alpha} is beyond the largest finite number"),
+            ))
         }
     }
 }
