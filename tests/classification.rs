@@ -79,8 +79,16 @@ fn posteriors_match_scikit_learn_discriminant_analysis() {
                     .iter()
                     .map(|v| v.as_u64().unwrap() as usize)
                     .collect();
-                assert_eq!(out.assigned(), predicted.as_slice(), "{} {key} {tag}", d.name);
-                eprintln!("{} {key} {tag}: max |posterior difference| {worst:.2e}", d.name);
+                assert_eq!(
+                    out.assigned(),
+                    predicted.as_slice(),
+                    "{} {key} {tag}",
+                    d.name
+                );
+                eprintln!(
+                    "{} {key} {tag}: max |posterior difference| {worst:.2e}",
+                    d.name
+                );
             }
         }
     }
@@ -108,17 +116,37 @@ fn default_divisor_matches_numpy_scipy_distances_posteriors_and_typicality() {
                     for g in 0..3 {
                         let d2 = out.squared_distances()[(i, g)];
                         worst[0] = worst[0].max(rel(d2, want_d2[(i, g)]));
-                        worst[1] = worst[1]
-                            .max((out.posteriors()[(i, g)] - want_post[(i, g)]).abs());
+                        worst[1] =
+                            worst[1].max((out.posteriors()[(i, g)] - want_post[(i, g)]).abs());
                         let t = c.typicality_reference(g).unwrap().p_value(d2);
                         worst[2] = worst[2].max(rel(t, want_typ[(i, g)]));
                     }
                     let g = out.assigned()[i];
-                    assert_eq!(out.typicality()[i], c.typicality_reference(g).unwrap().p_value(out.squared_distances()[(i, g)]));
+                    assert_eq!(
+                        out.typicality()[i],
+                        c.typicality_reference(g)
+                            .unwrap()
+                            .p_value(out.squared_distances()[(i, g)])
+                    );
                 }
-                assert!(worst[0] < 1e-10, "{} {key} {tag}: d2 {:e}", d.name, worst[0]);
-                assert!(worst[1] < 1e-12, "{} {key} {tag}: posteriors {:e}", d.name, worst[1]);
-                assert!(worst[2] < 1e-9, "{} {key} {tag}: typicality {:e}", d.name, worst[2]);
+                assert!(
+                    worst[0] < 1e-10,
+                    "{} {key} {tag}: d2 {:e}",
+                    d.name,
+                    worst[0]
+                );
+                assert!(
+                    worst[1] < 1e-12,
+                    "{} {key} {tag}: posteriors {:e}",
+                    d.name,
+                    worst[1]
+                );
+                assert!(
+                    worst[2] < 1e-9,
+                    "{} {key} {tag}: typicality {:e}",
+                    d.name,
+                    worst[2]
+                );
             }
         }
     }
@@ -147,15 +175,19 @@ fn discriminant_directions_match_scikit_learn() {
             let sign = if ours.dot(&theirs) < 0.0 { -1.0 } else { 1.0 };
             let scale = theirs.iter().fold(0.0f64, |m, v| m.max(v.abs()));
             for (a, b) in ours.iter().zip(theirs.iter()) {
-                assert!((sign * a - b).abs() < 1e-9 * scale, "{name} direction {k}: {a} {b}");
+                assert!(
+                    (sign * a - b).abs() < 1e-9 * scale,
+                    "{name} direction {k}: {a} {b}"
+                );
             }
         }
         // The default divisor gives the same directions scaled by
         // sqrt((n − G)/n) and the same shares.
-        let unbiased = Classifier::fit(d.x.view(), &d.labels, &ClassifierOptions::new(Rule::Linear))
-            .unwrap()
-            .discriminant_directions()
-            .unwrap();
+        let unbiased =
+            Classifier::fit(d.x.view(), &d.labels, &ClassifierOptions::new(Rule::Linear))
+                .unwrap()
+                .discriminant_directions()
+                .unwrap();
         let n = d.x.nrows() as f64;
         let f = ((n - 3.0) / n).sqrt();
         for (a, b) in unbiased.directions().iter().zip(dirs.directions().iter()) {
@@ -163,7 +195,8 @@ fn discriminant_directions_match_scikit_learn() {
         }
         // Projected rows have unit pooled within-group variance.
         let z = unbiased.project(d.x.view()).unwrap();
-        let u = Classifier::fit(z.view(), &d.labels, &ClassifierOptions::new(Rule::Linear)).unwrap();
+        let u =
+            Classifier::fit(z.view(), &d.labels, &ClassifierOptions::new(Rule::Linear)).unwrap();
         let s = u.pooled_scatter().unwrap().matrix();
         assert!((s[(0, 0)] - 1.0).abs() < 1e-10 && (s[(1, 1)] - 1.0).abs() < 1e-10);
     }
@@ -246,16 +279,29 @@ fn resubstitution_and_leave_one_out_on_iris() {
 #[test]
 fn no_group_flags_rows_far_from_every_group() {
     let d = dataset("iris");
-    let c = Classifier::fit(d.x.view(), &d.labels, &ClassifierOptions::new(Rule::Quadratic)).unwrap();
+    let c = Classifier::fit(
+        d.x.view(),
+        &d.labels,
+        &ClassifierOptions::new(Rule::Quadratic),
+    )
+    .unwrap();
     let far = ndarray::array![[5.0, 3.4, 1.5, 0.2], [30.0, -4.0, 12.0, 9.0]];
     let mut out = mvdist::classification::Predictions::new();
-    c.predict_into(far.view(), &PredictOptions::default().with_no_group_below(0.001), &mut out)
-        .unwrap();
+    c.predict_into(
+        far.view(),
+        &PredictOptions::default().with_no_group_below(0.001),
+        &mut out,
+    )
+    .unwrap();
     assert_eq!(out.no_group(), &[false, true]);
     // Consistent with the typicality of each group.
     for i in 0..2 {
         let best = (0..3)
-            .map(|g| c.typicality_reference(g).unwrap().p_value(out.squared_distances()[(i, g)]))
+            .map(|g| {
+                c.typicality_reference(g)
+                    .unwrap()
+                    .p_value(out.squared_distances()[(i, g)])
+            })
             .fold(0.0, f64::max);
         assert_eq!(out.no_group()[i], best < 0.001);
     }
@@ -268,7 +314,12 @@ fn typed_errors_name_the_group_row_or_column() {
     let d = dataset("iris");
     let one_group = vec![7usize; d.x.nrows()];
     assert_eq!(
-        Classifier::fit(d.x.view(), &one_group, &ClassifierOptions::new(Rule::Linear)).unwrap_err(),
+        Classifier::fit(
+            d.x.view(),
+            &one_group,
+            &ClassifierOptions::new(Rule::Linear)
+        )
+        .unwrap_err(),
         Error::TooFewGroups { found: 1 }
     );
     // A group with 4 rows for 4 variables: too small for its own scatter.
@@ -278,7 +329,11 @@ fn typed_errors_name_the_group_row_or_column() {
     }
     assert_eq!(
         Classifier::fit(d.x.view(), &small, &ClassifierOptions::new(Rule::Quadratic)).unwrap_err(),
-        Error::SmallGroup { group: 0, rows: 4, needed: 5 }
+        Error::SmallGroup {
+            group: 0,
+            rows: 4,
+            needed: 5
+        }
     );
     // The linear rule copes with it; leave-one-out too.
     let c = Classifier::fit(d.x.view(), &small, &ClassifierOptions::new(Rule::Linear)).unwrap();
@@ -288,33 +343,62 @@ fn typed_errors_name_the_group_row_or_column() {
     for i in 50..100 {
         x[(i, 2)] = 4.0;
     }
-    match Classifier::fit(x.view(), &d.labels, &ClassifierOptions::new(Rule::Quadratic)) {
-        Err(Error::InGroup { group: 1, cause }) => assert_eq!(*cause, Error::ZeroVariance { column: 2 }),
+    match Classifier::fit(
+        x.view(),
+        &d.labels,
+        &ClassifierOptions::new(Rule::Quadratic),
+    ) {
+        Err(Error::InGroup { group: 1, cause }) => {
+            assert_eq!(*cause, Error::ZeroVariance { column: 2 })
+        }
         other => panic!("unexpected {other:?}"),
     }
     // Unknown label when assessing accuracy.
     let c = Classifier::fit(d.x.view(), &d.labels, &ClassifierOptions::new(Rule::Linear)).unwrap();
     let mut wrong = d.labels.clone();
     wrong[17] = 5;
-    assert_eq!(c.confusion_matrix(d.x.view(), &wrong).unwrap_err(), Error::UnknownGroup { row: 17 });
+    assert_eq!(
+        c.confusion_matrix(d.x.view(), &wrong).unwrap_err(),
+        Error::UnknownGroup { row: 17 }
+    );
     // Mismatched columns.
     let narrow = d.x.slice(ndarray::s![.., ..3]);
     assert!(matches!(
         c.predict(narrow).unwrap_err(),
-        Error::ShapeMismatch { expected: 4, found: 3, .. }
+        Error::ShapeMismatch {
+            expected: 4,
+            found: 3,
+            ..
+        }
     ));
-    assert!(matches!(c.predict_row(&[1.0, 2.0]).unwrap_err(), Error::ShapeMismatch { .. }));
+    assert!(matches!(
+        c.predict_row(&[1.0, 2.0]).unwrap_err(),
+        Error::ShapeMismatch { .. }
+    ));
     // Non-finite values name the row and column.
     let mut bad = d.x.clone();
     bad[(3, 1)] = f64::NAN;
-    assert!(matches!(c.predict(bad.view()).unwrap_err(), Error::NonFinite { row: 3, column: 1, .. }));
+    assert!(matches!(
+        c.predict(bad.view()).unwrap_err(),
+        Error::NonFinite {
+            row: 3,
+            column: 1,
+            ..
+        }
+    ));
     // Priors must cover every group.
-    let partial = ClassifierOptions::new(Rule::Linear).with_priors(Priors::Given(vec![(0, 0.5), (1, 0.5)]));
+    let partial =
+        ClassifierOptions::new(Rule::Linear).with_priors(Priors::Given(vec![(0, 0.5), (1, 0.5)]));
     assert!(matches!(
         Classifier::fit(d.x.view(), &d.labels, &partial).unwrap_err(),
         Error::InvalidParameter { name: "priors", .. }
     ));
     // Messages name the group.
-    let msg = Error::SmallGroup { group: 2, rows: 3, needed: 5 }.to_string();
+    let msg = Error::SmallGroup {
+        group: 2,
+        rows: 3,
+        needed: 5,
+    }
+    .to_string();
     assert!(msg.contains("group 2") && msg.contains("3 row"));
 }

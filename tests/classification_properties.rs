@@ -17,7 +17,13 @@ fn groups(seed: u64, groups: usize, per_group: usize, p: usize) -> (Array2<f64>,
     for g in 0..groups {
         let centre: Vec<f64> = (0..p).map(|_| 3.0 * rng.normal()).collect();
         let mix: Vec<f64> = (0..p * p)
-            .map(|k| if k % (p + 1) == 0 { 1.0 + rng.uniform() } else { 0.4 * rng.normal() })
+            .map(|k| {
+                if k % (p + 1) == 0 {
+                    1.0 + rng.uniform()
+                } else {
+                    0.4 * rng.normal()
+                }
+            })
             .collect();
         for r in 0..per_group {
             let z: Vec<f64> = (0..p).map(|_| rng.normal()).collect();

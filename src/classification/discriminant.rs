@@ -87,7 +87,10 @@ impl DiscriminantDirections {
                     .sum();
             }
         }
-        if let Some(i) = out.outer_iter().position(|o| o.iter().any(|v| !v.is_finite())) {
+        if let Some(i) = out
+            .outer_iter()
+            .position(|o| o.iter().any(|v| !v.is_finite()))
+        {
             return Err(Error::Overflow { row: i });
         }
         Ok(out)
@@ -118,7 +121,9 @@ impl<L> Classifier<L> {
         for g in 0..g_count {
             let mu = &self.centroids[g * p..(g + 1) * p];
             for i in 0..p {
-                b[i] = (0..=i).map(|j| w[i * p + j] * (mu[j] - self.centre[j])).sum();
+                b[i] = (0..=i)
+                    .map(|j| w[i * p + j] * (mu[j] - self.centre[j]))
+                    .sum();
             }
             let ng = self.counts[g] as f64;
             for i in 0..p {
@@ -145,7 +150,9 @@ impl<L> Classifier<L> {
                 }
                 v[i] = acc / l[i * p + i];
             }
-            let largest = v.iter().fold(0.0f64, |m, &x| if x.abs() > m.abs() { x } else { m });
+            let largest = v
+                .iter()
+                .fold(0.0f64, |m, &x| if x.abs() > m.abs() { x } else { m });
             let sign = if largest < 0.0 { -1.0 } else { 1.0 };
             for i in 0..p {
                 directions[i * r + k] = sign * v[i];

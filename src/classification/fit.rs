@@ -268,12 +268,10 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
                             needed: p + 1,
                         });
                     }
-                    let s = a
-                        .scatter(options.divisor)
-                        .map_err(|cause| Error::InGroup {
-                            group: g,
-                            cause: Box::new(cause),
-                        })?;
+                    let s = a.scatter(options.divisor).map_err(|cause| Error::InGroup {
+                        group: g,
+                        cause: Box::new(cause),
+                    })?;
                     scatters.push(s);
                 }
                 (moments.pooled_scatter(options.divisor).ok(), scatters)

@@ -36,7 +36,9 @@
 //! one prediction pass plus `O(G²)` per row, instead of `n` refits.
 
 use super::confusion::ConfusionMatrix;
-use super::fit::{divisor_of, Classifier, ClassifierOptions, GroupScatterEstimator, PriorKind, Rule};
+use super::fit::{
+    divisor_of, Classifier, ClassifierOptions, GroupScatterEstimator, PriorKind, Rule,
+};
 use super::predict::{PredictOptions, Predictions};
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
@@ -139,7 +141,11 @@ impl LeaveOneOut {
                 }
             }
         }
-        let log_dets: Vec<f64> = c.group_scatters.iter().map(|s| s.log_determinant()).collect();
+        let log_dets: Vec<f64> = c
+            .group_scatters
+            .iter()
+            .map(|s| s.log_determinant())
+            .collect();
         let ln_priors: Vec<f64> = c.priors.iter().map(|q| q.ln()).collect();
 
         let (rule, counts, prior_kind, divisor) =
@@ -184,7 +190,8 @@ impl LeaveOneOut {
                                 d[h] = if h == g {
                                     ratio * k * k * d_full[g] / denom
                                 } else {
-                                    let ch = 0.5 * (d_full[h] + d_full[g] - between[h * g_count + g]);
+                                    let ch =
+                                        0.5 * (d_full[h] + d_full[g] - between[h * g_count + g]);
                                     ratio * (d_full[h] + k * ch * ch / (nu * denom))
                                 };
                                 post[h] = ln_prior(h, g) - 0.5 * d[h];
@@ -210,8 +217,7 @@ impl LeaveOneOut {
                                     (d_full[h], log_dets[h])
                                 };
                                 d[h] = dh;
-                                post[h] = ln_prior(h, g)
-                                    - 0.5 * (dh + log_det);
+                                post[h] = ln_prior(h, g) - 0.5 * (dh + log_det);
                             }
                         }
                     }

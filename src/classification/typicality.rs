@@ -99,7 +99,10 @@ impl TypicalityReference {
             ));
         }
         if group_rows == 0 {
-            return Err(Error::invalid("group rows", "a group needs at least one row"));
+            return Err(Error::invalid(
+                "group rows",
+                "a group needs at least one row",
+            ));
         }
         if pooled_dof < dim {
             return Err(Error::TooFewRows {
@@ -175,7 +178,10 @@ mod tests {
             let plain = Reference::new_row(n, p).unwrap();
             for d2 in [0.5, 3.0, 20.0, 80.0] {
                 let (a, b) = (pooled.p_value(d2), plain.p_value(d2));
-                assert!((a - b).abs() <= 1e-13 * b.max(1e-300), "{n} {p} {d2}: {a} {b}");
+                assert!(
+                    (a - b).abs() <= 1e-13 * b.max(1e-300),
+                    "{n} {p} {d2}: {a} {b}"
+                );
             }
             let c = pooled.cutoff(0.01).unwrap();
             assert!((c - plain.cutoff(0.01).unwrap()).abs() < 1e-9 * c);

@@ -33,7 +33,11 @@ pub(crate) fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
 
 /// Squared norms of eight whitened columns held in `buf` (`p × LANES`).
 #[inline(always)]
-pub(crate) fn lanes_kernel<const FMA: bool>(w: &[f64], p: usize, buf: &[[f64; LANES]]) -> [f64; LANES] {
+pub(crate) fn lanes_kernel<const FMA: bool>(
+    w: &[f64],
+    p: usize,
+    buf: &[[f64; LANES]],
+) -> [f64; LANES] {
     let mut d2 = [0.0f64; LANES];
     let mut i = 0;
     while i + 4 <= p {
