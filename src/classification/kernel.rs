@@ -9,7 +9,8 @@
 //! exponentials and their sum are then formed lane-wise, so the whole block
 //! vectorizes; the exponential is a branch-free polynomial (below) rather
 //! than a library call. The generic body is compiled for the baseline
-//! instruction set and again with AVX2 and FMA, chosen at run time.
+//! instruction set and again with AVX2 and FMA, and with AVX-512 (eight
+//! lanes are one register), chosen at run time.
 
 use crate::distance::kernel::{centred_lanes, fmadd, lanes_kernel, whiten_lanes, LANES};
 use ndarray::ArrayView2;
@@ -188,6 +189,19 @@ fn block_avx2(
     block_body::<true>(rule, x, d2, post, assigned, s)
 }
 
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f,avx2,fma")]
+fn block_avx512(
+    rule: &RuleView<'_>,
+    x: ArrayView2<'_, f64>,
+    d2: &mut [f64],
+    post: &mut [f64],
+    assigned: &mut [usize],
+    s: &mut Scratch,
+) {
+    block_body::<true>(rule, x, d2, post, assigned, s)
+}
+
 /// Squared distances to every centroid, posteriors and the most probable
 /// group for every row of `x` (shapes already checked), on this thread.
 pub(crate) fn predict_block(
@@ -200,6 +214,13 @@ pub(crate) fn predict_block(
 ) {
     #[cfg(target_arch = "x86_64")]
     {
+        if std::arch::is_x86_feature_detected!("avx512f")
+            && crate::distance::kernel::has_avx2_fma()
+        {
+            // SAFETY: the CPU supports AVX-512F, AVX2 and FMA (checked at run time).
+            unsafe { block_avx512(rule, x, d2, post, assigned, s) };
+            return;
+        }
         if crate::distance::kernel::has_avx2_fma() {
             // SAFETY: the CPU supports AVX2 and FMA (checked at run time).
             unsafe { block_avx2(rule, x, d2, post, assigned, s) };
@@ -218,6 +239,33 @@ mod tests {
             return 0.0;
         }
         (a - b).abs() / (b.abs() * f64::EPSILON)
+    }
+
+    #[test]
+    fn baseline_and_dispatched_kernels_agree() {
+        use crate::classification::{Classifier, ClassifierOptions, Rule};
+        // Invented rows from a fixed linear congruential sequence.
+        let mut state = 12345u64;
+        let mut next = || {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
+        };
+        let (n, p) = (61, 5);
+        let x = ndarray::Array2::from_shape_fn((n, p), |(i, j)| next() + (i % 3) as f64 * (j as f64 - 1.0));
+        let labels: Vec<usize> = (0..n).map(|i| i % 3).collect();
+        for rule in [Rule::Linear, Rule::Quadratic] {
+            let c = Classifier::fit(x.view(), &labels, &ClassifierOptions::new(rule)).unwrap();
+            let view = c.rule_view();
+            let mut a = (vec![0.0; n * 3], vec![0.0; n * 3], vec![0usize; n]);
+            let mut b = a.clone();
+            let mut s = Scratch::new(p, 3);
+            block_body::<false>(&view, x.view(), &mut a.0, &mut a.1, &mut a.2, &mut s);
+            predict_block(&view, x.view(), &mut b.0, &mut b.1, &mut b.2, &mut s);
+            assert_eq!(a.2, b.2);
+            for (u, v) in a.0.iter().zip(&b.0).chain(a.1.iter().zip(&b.1)) {
+                assert!((u - v).abs() <= 1e-12 * v.abs().max(1e-3), "{u} {v}");
+            }
+        }
     }
 
     #[test]
