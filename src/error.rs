@@ -117,6 +117,34 @@ pub enum Error {
         /// What is wrong with it.
         reason: String,
     },
+    /// Labelled rows fall into fewer than two groups: there is nothing to
+    /// classify between.
+    TooFewGroups {
+        /// Number of distinct labels found.
+        found: usize,
+    },
+    /// A group has too few rows for what the method estimates from it.
+    SmallGroup {
+        /// The group (0-based, in order of first appearance of its label).
+        group: usize,
+        /// Rows in the group.
+        rows: usize,
+        /// Rows needed at least.
+        needed: usize,
+    },
+    /// A row's label is not one of the groups the classifier was fitted on.
+    UnknownGroup {
+        /// The row with the unknown label.
+        row: usize,
+    },
+    /// A problem with one group's rows (for example, a variable constant
+    /// within the group makes its own scatter singular).
+    InGroup {
+        /// The group (0-based, in order of first appearance of its label).
+        group: usize,
+        /// What went wrong within the group.
+        cause: Box<Error>,
+    },
 }
 
 impl Error {
@@ -179,6 +207,19 @@ impl fmt::Display for Error {
             Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
             Error::Io { reason } => write!(f, "input/output error: {reason}"),
+            Error::TooFewGroups { found } => write!(
+                f,
+                "the labels name {found} group(s); classification needs at least two"
+            ),
+            Error::SmallGroup { group, rows, needed } => write!(
+                f,
+                "group {group} has {rows} row(s), at least {needed} are needed; add rows to it, merge it with another group, or use the linear rule (one pooled scatter)"
+            ),
+            Error::UnknownGroup { row } => write!(
+                f,
+                "row {row} has a label that is not one of the fitted groups"
+            ),
+            Error::InGroup { group, cause } => write!(f, "in group {group}: {cause}"),
         }
     }
 }

@@ -77,6 +77,7 @@
 #![cfg_attr(test, allow(clippy::unwrap_used, clippy::expect_used, clippy::panic))]
 
 pub mod calibration;
+pub mod classification;
 pub mod data;
 pub mod distance;
 pub mod drift;

@@ -422,3 +422,217 @@ fn demo_runs_and_writes_its_charts() {
         assert!(svg.starts_with("<svg") && svg.contains("</svg>"), "{chart}");
     }
 }
+
+/// Iris with the species name as the label column (for `classify`).
+fn iris_species_csv(dir: &Path, name: &str) -> (PathBuf, ndarray::Array2<f64>, Vec<String>) {
+    let f = common::fixture("iris_covariance.json");
+    let x = common::matrix(&f["data"]);
+    let names = ["setosa", "versicolor", "virginica"];
+    let labels: Vec<String> = (0..x.nrows())
+        .map(|i| names[f["labels"][i].as_u64().unwrap() as usize].to_string())
+        .collect();
+    let mut text = String::from("sepal_length,sepal_width,petal_length,petal_width,species\n");
+    for (row, l) in x.outer_iter().zip(&labels) {
+        text += &format!("{},{},{},{},{l}\n", row[0], row[1], row[2], row[3]);
+    }
+    (write(dir, name, &text), x, labels)
+}
+
+#[test]
+fn classify_matches_the_library_and_reports_leave_one_out() {
+    use mvdist::classification::{Classifier, ClassifierOptions, Priors, Rule};
+    let dir = TempDir::new().unwrap();
+    let (train, x, labels) = iris_species_csv(dir.path(), "iris.csv");
+    for (rule, priors, r, q) in [
+        ("linear", "proportional", Rule::Linear, Priors::Proportional),
+        ("quadratic", "equal", Rule::Quadratic, Priors::Equal),
+    ] {
+        let out = dir.path().join(format!("classes_{rule}.csv"));
+        mvdist()
+            .args(["classify", "--train"])
+            .arg(&train)
+            .args([
+                "--label", "species", "--rule", rule, "--priors", priors, "--loo",
+            ])
+            .arg(&train)
+            .arg("--out")
+            .arg(&out)
+            .assert()
+            .success()
+            .stdout(predicate::str::contains("leave-one-out confusion matrix"))
+            .stdout(predicate::str::contains("versicolor"))
+            .stdout(predicate::str::contains("resubstitution error rate"))
+            .stdout(predicate::str::contains("accuracy on the 150 rows"))
+            .stdout(predicate::str::contains("not a verdict"));
+        let text = std::fs::read_to_string(&out).unwrap();
+        assert!(text
+            .starts_with("row,group,posterior,typicality,d2_setosa,d2_versicolor,d2_virginica\n"));
+        let c =
+            Classifier::fit(x.view(), &labels, &ClassifierOptions::new(r).with_priors(q)).unwrap();
+        let lib = c.predict(x.view()).unwrap();
+        let rows = read_scores(&out);
+        assert_eq!(rows.len(), 150);
+        for (i, row) in rows.iter().enumerate() {
+            assert_eq!(row[0], (i + 1).to_string());
+            let g = lib.assigned()[i];
+            assert_eq!(row[1], c.labels()[g]);
+            assert_eq!(row[2].parse::<f64>().unwrap(), lib.posteriors()[(i, g)]);
+            assert_eq!(row[3].parse::<f64>().unwrap(), lib.typicality()[i]);
+            for h in 0..3 {
+                assert_eq!(
+                    row[4 + h].parse::<f64>().unwrap(),
+                    lib.squared_distances()[(i, h)]
+                );
+            }
+        }
+    }
+    // The linear rule's leave-one-out error on iris: 3 of 150.
+    mvdist()
+        .args(["classify", "--train"])
+        .arg(&train)
+        .args(["--label", "species", "--loo"])
+        .arg(&train)
+        .arg("--out")
+        .arg(dir.path().join("again.csv"))
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "error rate 0.0200 (3 of 150 rows)",
+        ));
+}
+
+#[test]
+fn classify_flags_no_group_and_unknown_labels() {
+    let dir = TempDir::new().unwrap();
+    let (train, _, _) = iris_species_csv(dir.path(), "iris.csv");
+    // Columns in another order, an unknown label and a far-away row.
+    let data = write(
+        dir.path(),
+        "new.csv",
+        "species,petal_width,petal_length,sepal_width,sepal_length\nsetosa,0.2,1.5,3.4,5.0\nvirginica,2.0,5.5,3.0,6.5\nrose,1,1,2,30\n",
+    );
+    let out = dir.path().join("new_classes.csv");
+    mvdist()
+        .args(["classify", "--train"])
+        .arg(&train)
+        .args(["--label", "species", "--no-group-below", "0.001"])
+        .arg(&data)
+        .arg("--out")
+        .arg(&out)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("1 row(s) atypical of every group"))
+        .stdout(predicate::str::contains("accuracy on the 2 rows"))
+        .stdout(predicate::str::contains("'rose'"))
+        .stdout(predicate::str::contains("first at line 4"));
+    let rows = read_scores(&out);
+    assert_eq!(rows[0][1], "setosa");
+    assert_eq!(rows[1][1], "virginica");
+    assert_eq!(rows[2][1], "", "no group");
+    let typicality: f64 = rows[2][3].parse().unwrap();
+    assert!(typicality < 1e-6);
+    assert!(rows[2][3].contains('e'), "tiny values in exponent form");
+}
+
+#[test]
+fn classify_errors_name_the_group_or_column() {
+    let dir = TempDir::new().unwrap();
+    let (train, _, _) = iris_species_csv(dir.path(), "iris.csv");
+    let out = dir.path().join("classes.csv");
+    let classify = |train: &Path, data: &Path, extra: &[&str], message: &str| {
+        let mut args: Vec<&std::ffi::OsStr> = vec![
+            "classify".as_ref(),
+            "--train".as_ref(),
+            train.as_os_str(),
+            "--label".as_ref(),
+            "species".as_ref(),
+            data.as_os_str(),
+            "--out".as_ref(),
+            out.as_os_str(),
+        ];
+        args.extend(extra.iter().map(std::ffi::OsStr::new));
+        fails(&args, &out, message);
+    };
+    // A single group.
+    let one = write(
+        dir.path(),
+        "one.csv",
+        "a,b,species\n1,2,x\n2,1,x\n3,5,x\n4,4,x\n",
+    );
+    classify(
+        &one,
+        &one,
+        &[],
+        "column 'species' names only one group ('x')",
+    );
+    // A group too small for its own scatter (quadratic rule).
+    let small = write(
+        dir.path(),
+        "small.csv",
+        "a,b,species\n1,2,x\n2,1,x\n3,5,x\n4,4,x\n0,0,y\n1,3,y\n",
+    );
+    classify(
+        &small,
+        &small,
+        &["--rule", "quadratic"],
+        "group 'y' has 2 row(s), but the quadratic rule needs at least 3 for 2 variables",
+    );
+    // A variable constant within one group (quadratic rule).
+    let constant = write(
+        dir.path(),
+        "constant.csv",
+        "a,b,species\n1,2,x\n2,1,x\n3,5,x\n4,4,x\n0,7,y\n1,7,y\n5,7,y\n2,7,y\n",
+    );
+    classify(
+        &constant,
+        &constant,
+        &["--rule", "quadratic"],
+        "in group 'y'",
+    );
+    classify(
+        &constant,
+        &constant,
+        &["--rule", "quadratic"],
+        "column 'b' is constant",
+    );
+    // Data without one of the training variables.
+    let narrow = write(
+        dir.path(),
+        "narrow.csv",
+        "sepal_length,sepal_width,petal_length\n1,2,3\n",
+    );
+    classify(
+        &train,
+        &narrow,
+        &[],
+        "'petal_width' are not columns of this file",
+    );
+    // No such label column, an empty label, a bad level.
+    let nolabel = write(dir.path(), "nolabel.csv", "a,b\n1,2\n");
+    classify(&nolabel, &nolabel, &[], "unknown column 'species'");
+    let empty = write(dir.path(), "empty_label.csv", "a,species\n1,x\n2,\n3,y\n");
+    classify(
+        &empty,
+        &empty,
+        &[],
+        "line 3: the label column 'species' is empty",
+    );
+    classify(
+        &train,
+        &train,
+        &["--no-group-below", "1.5"],
+        "--no-group-below 1.5 is not between 0 and 1",
+    );
+    // A non-numeric cell in the data.
+    let text = write(
+        dir.path(),
+        "text.csv",
+        "sepal_length,sepal_width,petal_length,petal_width\n1,2,3,x\n",
+    );
+    classify(
+        &train,
+        &text,
+        &[],
+        "line 2, column 'petal_width': 'x' is not a number",
+    );
+}

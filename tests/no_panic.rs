@@ -5,6 +5,10 @@
 use mvdist::calibration::{
     adjusted_p_values, Adjustment, BetaDistribution, ChiSquared, FDistribution, Reference,
 };
+use mvdist::classification::{
+    Classifier, ClassifierOptions, ConfusionMatrix, LeaveOneOut, PredictOptions, Predictions,
+    Priors, Rule, TypicalityReference,
+};
 use mvdist::moments::{
     mean_and_covariance, weighted_mean_and_covariance, Divisor, ExponentialMoments, GroupMoments,
     MomentAccumulator,
@@ -137,6 +141,50 @@ fn exercise_model(model: &DistanceModel, x: ArrayView2<'_, f64>, values: &[f64])
     let _ = model.scatter().correlation();
 }
 
+fn exercise_classifier(c: &Classifier<u8>, x: ArrayView2<'_, f64>, values: &[f64], labels: &[u8]) {
+    let p = c.dim();
+    if let Ok(out) = c.predict(x) {
+        assert!(out
+            .squared_distances()
+            .iter()
+            .chain(out.posteriors().iter())
+            .chain(out.typicality())
+            .all(|v| v.is_finite()));
+        let _ = out.assigned_posteriors();
+        let _ = out.row(0);
+        let _ = out.row(usize::MAX);
+    }
+    let mut buffer = Predictions::new();
+    for level in [0.05, 0.0, 1.0, f64::NAN, 1e-300] {
+        let options = PredictOptions::default().with_no_group_below(level);
+        let _ = c.predict_into(x, &options, &mut buffer);
+        let _ = c.predict_into(x, &options.without_typicality(), &mut buffer);
+    }
+    let row: Vec<f64> = values.iter().copied().cycle().take(p).collect();
+    if let Ok(pred) = c.predict_row(&row) {
+        assert!(pred
+            .posteriors
+            .iter()
+            .chain(&pred.squared_distances)
+            .all(|v| v.is_finite()));
+    }
+    let _ = c.predict_row(values);
+    let _ = c.confusion_matrix(x, labels);
+    if let Ok(d) = c.discriminant_directions() {
+        ok_finite_all(d.project(x).as_ref().map(|a| a.iter()));
+    }
+    for g in 0..c.group_count() + 1 {
+        if let Some(r) = c.typicality_reference(g) {
+            for &v in values.iter().take(4) {
+                let pv = r.p_value(v);
+                assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
+                ok_finite(r.cutoff(v));
+            }
+        }
+        let _ = c.scatter(g);
+    }
+}
+
 proptest! {
     #![proptest_config(ProptestConfig { cases: 256, max_shrink_iters: 200, failure_persistence: None, ..ProptestConfig::default() })]
 
@@ -215,6 +263,41 @@ proptest! {
         if let Ok(g) = GroupMoments::from_rows(x.view(), &labels) {
             ok_finite_all(g.pooled_covariance(Divisor::Unbiased).as_ref().map(|c| c.iter()));
             let _ = g.pooled_scatter(Divisor::Unbiased);
+        }
+
+        // Classification, with the labels and with one label per row.
+        let row_labels: Vec<u8> = (0..n).map(|i| labels.get(i).copied().unwrap_or((i % 2) as u8)).collect();
+        for labels in [&labels, &row_labels] {
+        for rule in [Rule::Linear, Rule::Quadratic] {
+            for divisor in [Divisor::Unbiased, Divisor::MaximumLikelihood] {
+                let priors = [
+                    Priors::Proportional,
+                    Priors::Equal,
+                    Priors::Given(labels.iter().copied().zip(weights.iter().copied()).collect()),
+                    Priors::Given(vec![(0, 1.0), (1, 2.0)]),
+                ];
+                for prior in priors {
+                    let options = ClassifierOptions::new(rule).with_divisor(divisor).with_priors(prior);
+                    if let Ok(c) = Classifier::fit(x.view(), labels, &options) {
+                        exercise_classifier(&c, x.view(), &values, labels);
+                    }
+                    if let Ok(loo) = LeaveOneOut::estimate(x.view(), labels, &options) {
+                        assert!(loo.squared_distances().iter().chain(loo.posteriors().iter()).all(|v| v.is_finite()));
+                    }
+                }
+            }
+        }
+        }
+        let groups: Vec<usize> = labels.iter().map(|&l| l as usize).collect();
+        let _ = ConfusionMatrix::from_groups(&groups, &groups, 2);
+        let _ = ConfusionMatrix::from_groups(&groups, &groups[groups.len().min(1)..], 3);
+        for &v in values.iter().take(3) {
+            let k = v.abs().min(1e6) as usize;
+            for r in [TypicalityReference::own_scatter(k, p), TypicalityReference::pooled_scatter(k, n, p), TypicalityReference::pooled_scatter(n, k, p)].into_iter().flatten() {
+                let pv = r.p_value(v);
+                assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
+                ok_finite(r.cutoff(0.01));
+            }
         }
 
         // Calibration with arbitrary parameters.

@@ -13,7 +13,7 @@ use ndarray::ArrayView2;
 use rayon::prelude::*;
 
 /// Rows per lane block.
-const LANES: usize = 8;
+pub(crate) const LANES: usize = 8;
 /// Rows per parallel task.
 const TASK_ROWS: usize = 2048;
 /// Below this many values (`n·p`), batch work stays on the calling thread:
@@ -23,7 +23,7 @@ pub(crate) const SEQUENTIAL_BELOW: usize = 1 << 15;
 pub(crate) const STACK_DIM: usize = 64;
 
 #[inline(always)]
-fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
+pub(crate) fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
     if FMA {
         a.mul_add(b, c)
     } else {
@@ -33,7 +33,11 @@ fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
 
 /// Squared norms of eight whitened columns held in `buf` (`p × LANES`).
 #[inline(always)]
-fn lanes_kernel<const FMA: bool>(w: &[f64], p: usize, buf: &[[f64; LANES]]) -> [f64; LANES] {
+pub(crate) fn lanes_kernel<const FMA: bool>(
+    w: &[f64],
+    p: usize,
+    buf: &[[f64; LANES]],
+) -> [f64; LANES] {
     let mut d2 = [0.0f64; LANES];
     let mut i = 0;
     while i + 4 <= p {
@@ -78,6 +82,83 @@ fn lanes_kernel<const FMA: bool>(w: &[f64], p: usize, buf: &[[f64; LANES]]) -> [
     d2
 }
 
+/// Whitened coordinates `z = W c` of the eight centred columns held in
+/// `buf` (`p × LANES`), written to `z` (`p × LANES`); `w` is the row-major
+/// lower triangular whitening matrix.
+#[inline(always)]
+pub(crate) fn whiten_lanes<const FMA: bool>(
+    w: &[f64],
+    p: usize,
+    buf: &[[f64; LANES]],
+    z: &mut [[f64; LANES]],
+) {
+    let mut i = 0;
+    while i + 4 <= p {
+        let len = i + 4;
+        let r0 = &w[i * p..i * p + len];
+        let r1 = &w[(i + 1) * p..(i + 1) * p + len];
+        let r2 = &w[(i + 2) * p..(i + 2) * p + len];
+        let r3 = &w[(i + 3) * p..(i + 3) * p + len];
+        let mut z0 = [0.0f64; LANES];
+        let mut z1 = [0.0f64; LANES];
+        let mut z2 = [0.0f64; LANES];
+        let mut z3 = [0.0f64; LANES];
+        for ((((c, &a0), &a1), &a2), &a3) in buf[..len].iter().zip(r0).zip(r1).zip(r2).zip(r3) {
+            for k in 0..LANES {
+                z0[k] = fmadd::<FMA>(a0, c[k], z0[k]);
+                z1[k] = fmadd::<FMA>(a1, c[k], z1[k]);
+                z2[k] = fmadd::<FMA>(a2, c[k], z2[k]);
+                z3[k] = fmadd::<FMA>(a3, c[k], z3[k]);
+            }
+        }
+        z[i] = z0;
+        z[i + 1] = z1;
+        z[i + 2] = z2;
+        z[i + 3] = z3;
+        i += 4;
+    }
+    while i < p {
+        let row = &w[i * p..i * p + i + 1];
+        let mut zi = [0.0f64; LANES];
+        for (c, &a) in buf[..=i].iter().zip(row) {
+            for k in 0..LANES {
+                zi[k] = fmadd::<FMA>(a, c[k], zi[k]);
+            }
+        }
+        z[i] = zi;
+        i += 1;
+    }
+}
+
+/// Loads rows `start..start + count` (`count ≤ LANES`) of `x`, centred on
+/// `mu`, into the columns of `buf` (`p × LANES`); unused lanes are zero.
+#[inline(always)]
+pub(crate) fn centred_lanes(
+    x: ArrayView2<'_, f64>,
+    start: usize,
+    count: usize,
+    mu: &[f64],
+    buf: &mut [[f64; LANES]],
+) {
+    for r in 0..count {
+        let row = x.row(start + r);
+        if let Some(s) = row.as_slice() {
+            for ((b, &v), &m) in buf.iter_mut().zip(s).zip(mu) {
+                b[r] = v - m;
+            }
+        } else {
+            for ((b, &v), &m) in buf.iter_mut().zip(row.iter()).zip(mu) {
+                b[r] = v - m;
+            }
+        }
+    }
+    for b in buf.iter_mut() {
+        for lane in b.iter_mut().skip(count) {
+            *lane = 0.0;
+        }
+    }
+}
+
 /// Squared distances of the rows of `x` (a block), written to `out`.
 #[inline(always)]
 fn block_body<const FMA: bool>(
@@ -106,23 +187,7 @@ fn block_body<const FMA: bool>(
     let mut start = 0;
     while start < n {
         let count = LANES.min(n - start);
-        for r in 0..count {
-            let row = x.row(start + r);
-            if let Some(s) = row.as_slice() {
-                for ((b, &v), &m) in buf.iter_mut().zip(s).zip(mu) {
-                    b[r] = v - m;
-                }
-            } else {
-                for ((b, &v), &m) in buf.iter_mut().zip(row.iter()).zip(mu) {
-                    b[r] = v - m;
-                }
-            }
-        }
-        for b in buf.iter_mut() {
-            for lane in b.iter_mut().skip(count) {
-                *lane = 0.0;
-            }
-        }
+        centred_lanes(x, start, count, mu, buf);
         let d2 = lanes_kernel::<FMA>(w, p, buf);
         out[start..start + count].copy_from_slice(&d2[..count]);
         start += count;
@@ -163,7 +228,7 @@ fn block_dispatch(
 
 #[cfg(target_arch = "x86_64")]
 #[inline]
-fn has_avx2_fma() -> bool {
+pub(crate) fn has_avx2_fma() -> bool {
     std::arch::is_x86_feature_detected!("avx2") && std::arch::is_x86_feature_detected!("fma")
 }
 

@@ -3,12 +3,14 @@
 //! ```text
 //! mvdist fit DATA.csv --out MODEL.json [--columns a,b,c]
 //! mvdist score MODEL.json DATA.csv --out SCORES.csv [--alpha 0.01] [--in-sample] [--adjust bh]
+//! mvdist classify --train TRAIN.csv --label COLUMN DATA.csv --out OUT.csv [--rule linear|quadratic] [--priors equal|proportional] [--loo]
 //! ```
 //!
 //! Errors go to stderr with the file, the line (1-based, counting the
 //! header as line 1) and the column; the exit code is 1 and no output file
 //! is left behind.
 
+mod classify;
 mod fit;
 mod output;
 mod score;
@@ -31,6 +33,8 @@ enum Command {
     Fit(fit::FitArgs),
     /// Score rows against a model file: squared distance, p-value, flag, top variable.
     Score(score::ScoreArgs),
+    /// Assign rows to groups learned from labelled training rows: group, posterior, typicality, distances.
+    Classify(classify::ClassifyArgs),
 }
 
 /// An error for the user: what went wrong, where, and what to do.
@@ -48,6 +52,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Fit(args) => fit::run(&args),
         Command::Score(args) => score::run(&args),
+        Command::Classify(args) => classify::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

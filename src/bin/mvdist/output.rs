@@ -85,3 +85,23 @@ pub fn write_bytes_atomically(target: &Path, bytes: &[u8]) -> Result<(), CliErro
         .map_err(|e| CliError(format!("{}: {e}", target.display())))?;
     f.finish()
 }
+
+/// A CSV field, quoted when it holds a comma, quote or line break.
+pub fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+/// A number as a CSV field: shortest round-trip form, in exponent notation
+/// when very small or very large (so that tiny p-values stay short).
+pub fn number_field(v: f64) -> String {
+    let a = v.abs();
+    if a != 0.0 && a.is_finite() && !(1e-5..1e16).contains(&a) {
+        format!("{v:e}")
+    } else {
+        format!("{v}")
+    }
+}

@@ -1,7 +1,7 @@
 //! `mvdist score`: squared distances, p-values, flags and the top variable
 //! for every row of a CSV file, streamed.
 
-use crate::output::PendingFile;
+use crate::output::{csv_field, PendingFile};
 use crate::table::{layout_for, missing_value_error, open, parse_record, read_error, RowOutcome};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
@@ -238,12 +238,4 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     );
     println!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
     Ok(())
-}
-
-fn csv_field(s: &str) -> String {
-    if s.contains([',', '"', '\n', '\r']) {
-        format!("\"{}\"", s.replace('"', "\"\""))
-    } else {
-        s.to_string()
-    }
 }
