@@ -112,9 +112,25 @@ pub enum Error {
         /// What is wrong with it.
         reason: String,
     },
+    /// An error in one of several samples or groups passed together (for
+    /// example the second sample of a two-sample test); `error` names the
+    /// row and column within that group.
+    InGroup {
+        /// 0-based position of the group among those passed.
+        group: usize,
+        /// What went wrong in it.
+        error: Box<Error>,
+    },
 }
 
 impl Error {
+    pub(crate) fn in_group(group: usize) -> impl Fn(Error) -> Error {
+        move |error| Error::InGroup {
+            group,
+            error: Box::new(error),
+        }
+    }
+
     pub(crate) fn invalid(name: &'static str, reason: impl Into<String>) -> Self {
         Error::InvalidParameter {
             name,
@@ -173,6 +189,7 @@ impl fmt::Display for Error {
             ),
             Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
+            Error::InGroup { group, error } => write!(f, "in group {group}: {error}"),
         }
     }
 }

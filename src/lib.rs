@@ -77,11 +77,13 @@
 #![cfg_attr(test, allow(clippy::unwrap_used, clippy::expect_used, clippy::panic))]
 
 pub mod calibration;
+pub mod control_chart;
 pub mod data;
 pub mod distance;
 mod error;
 pub mod explain;
 mod linalg;
+pub mod mean_tests;
 mod model;
 pub mod model_file;
 pub mod moments;

@@ -1,0 +1,157 @@
+//! What raised an alarm: decomposition terms judged against their own
+//! limits, and per-variable contributions.
+
+use super::decomposition::{conditional_terms, terms_along, DecompositionTerm};
+use super::{ControlLimit, FalseAlarmRate};
+use crate::error::Result;
+use crate::explain::{contributions, ContributionOrder, Contributions};
+use crate::scatter::Scatter;
+use serde::{Deserialize, Serialize};
+
+/// A decomposition term with its in-control cutoff and p-value.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct RatedTerm {
+    /// The variable `j`.
+    pub variable: usize,
+    /// The conditioning variables `J` (empty: unconditional term).
+    pub given: Vec<usize>,
+    /// `T²_{j·J}`.
+    pub value: f64,
+    /// The term's upper limit at the chart's false-alarm rate, from
+    /// [`ControlLimit::term_distribution`] with `k = |J|`.
+    pub cutoff: f64,
+    /// Probability that an in-control term exceeds `value`.
+    pub p_value: f64,
+}
+
+impl RatedTerm {
+    /// Whether the term is above its cutoff.
+    pub fn exceeds(&self) -> bool {
+        self.value > self.cutoff
+    }
+
+    /// The term's label with the given variable names: `name` for an
+    /// unconditional term, `name | a, b` for a conditional one.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::control_chart::RatedTerm;
+    /// let t = RatedTerm { variable: 1, given: vec![0], value: 9.0, cutoff: 7.0, p_value: 0.004 };
+    /// let names = ["temperature".to_string(), "pressure".to_string()];
+    /// assert_eq!(t.label(&names), "pressure | temperature");
+    /// assert!(t.exceeds());
+    /// ```
+    pub fn label(&self, names: &[String]) -> String {
+        let name = |j: usize| names.get(j).cloned().unwrap_or_else(|| format!("#{j}"));
+        if self.given.is_empty() {
+            name(self.variable)
+        } else {
+            format!(
+                "{} | {}",
+                name(self.variable),
+                self.given
+                    .iter()
+                    .map(|&g| name(g))
+                    .collect::<Vec<_>>()
+                    .join(", ")
+            )
+        }
+    }
+}
+
+/// The diagnosis of one charted point.
+///
+/// `terms` holds every Mason–Tracy–Young term `T²_{j·J}` with at most
+/// `depth` conditioning variables, ranked from the most to the least
+/// surprising (ascending p-value; ties by value over cutoff). Read it
+/// top-down: an unconditional term above its cutoff names a variable out of
+/// its usual range; a conditional term above its cutoff while the
+/// variable's unconditional term is not names a broken relationship.
+/// `contributions` is the greedy sequential split of T² from
+/// [`crate::explain`] (the terms along the greedy ordering), which sums to
+/// T².
+///
+/// A diagnosis describes the model's view of the point; it prompts an
+/// investigation, it does not establish a cause.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+pub struct SignalDiagnosis {
+    /// The point's T².
+    pub t_squared: f64,
+    /// The chart's upper control limit for the point.
+    pub upper_limit: f64,
+    /// The largest conditioning depth included.
+    pub depth: usize,
+    /// Ranked decomposition terms.
+    pub terms: Vec<RatedTerm>,
+    /// Per-variable contributions (greedy order) from [`crate::explain`].
+    pub contributions: Contributions,
+}
+
+impl SignalDiagnosis {
+    /// The terms above their cutoffs, most surprising first.
+    pub fn exceeding(&self) -> impl Iterator<Item = &RatedTerm> {
+        self.terms.iter().filter(|t| t.exceeds())
+    }
+}
+
+/// Rates raw terms against the limit's term laws.
+pub(crate) fn rate_terms(
+    terms: Vec<DecompositionTerm>,
+    limit: &ControlLimit,
+    rate: FalseAlarmRate,
+) -> Result<Vec<RatedTerm>> {
+    let mut cutoffs = Vec::new();
+    terms
+        .into_iter()
+        .map(|t| {
+            let k = t.given.len();
+            while cutoffs.len() <= k {
+                let dist = limit.term_distribution(cutoffs.len())?;
+                cutoffs.push((dist, dist.cutoff(rate.alpha())?));
+            }
+            let (dist, cutoff) = cutoffs[k];
+            Ok(RatedTerm {
+                p_value: dist.p_value(t.value),
+                variable: t.variable,
+                given: t.given,
+                value: t.value,
+                cutoff,
+            })
+        })
+        .collect()
+}
+
+/// The full diagnosis of a centred point.
+pub(crate) fn diagnose_centred(
+    scatter: &Scatter,
+    centred: &[f64],
+    limit: &ControlLimit,
+    rate: FalseAlarmRate,
+    depth: usize,
+) -> Result<SignalDiagnosis> {
+    let t_squared = scatter.squared_norm(centred)?;
+    let mut terms = rate_terms(conditional_terms(scatter, centred, depth)?, limit, rate)?;
+    terms.sort_by(|a, b| {
+        a.p_value.total_cmp(&b.p_value).then_with(|| {
+            (b.value / b.cutoff).total_cmp(&(a.value / a.cutoff))
+        })
+    });
+    Ok(SignalDiagnosis {
+        t_squared,
+        upper_limit: limit.upper(rate)?,
+        depth: depth.min(scatter.dim().saturating_sub(1)),
+        terms,
+        contributions: contributions(scatter, centred, &ContributionOrder::LargestFirst)?,
+    })
+}
+
+/// The rated terms of a centred point along `order`.
+pub(crate) fn rated_terms_along(
+    scatter: &Scatter,
+    centred: &[f64],
+    order: &[usize],
+    limit: &ControlLimit,
+    rate: FalseAlarmRate,
+) -> Result<Vec<RatedTerm>> {
+    rate_terms(terms_along(scatter, centred, order)?, limit, rate)
+}
