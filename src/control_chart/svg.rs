@@ -6,11 +6,11 @@ use crate::error::Result;
 use std::fmt::Write;
 
 const WIDTH: f64 = 900.0;
-const HEIGHT: f64 = 460.0;
+const HEIGHT: f64 = 490.0;
 const LEFT: f64 = 72.0;
 const RIGHT: f64 = 24.0;
-const TOP: f64 = 56.0;
-const BOTTOM: f64 = 64.0;
+const TOP: f64 = 72.0;
+const BOTTOM: f64 = 84.0;
 
 /// Escapes text for XML.
 fn escape(s: &str) -> String {
@@ -149,9 +149,11 @@ pub fn chart_svg(chart: &ControlChart, phase_two: &[ChartPoint], title: &str) ->
     let _ = writeln!(s, r#"<rect width="100%" height="100%" fill="white"/>"#);
     let _ = writeln!(
         s,
-        r#"<text x="{}" y="24" text-anchor="middle" font-size="17">{}</text>"#,
+        r##"<text x="{0}" y="24" text-anchor="middle" font-size="17">{1}</text><text x="{0}" y="41" text-anchor="middle" fill="#555">false-alarm rate {2} per point (in-control ARL {3:.0}); limits assume independent, normal in-control data; a signal is a prompt to investigate</text>"##,
         WIDTH / 2.0,
-        escape(title)
+        escape(title),
+        chart.false_alarm().alpha(),
+        chart.false_alarm().average_run_length()
     );
     // Grid, ticks and axes.
     for t in axis.ticks() {
@@ -186,7 +188,7 @@ pub fn chart_svg(chart: &ControlChart, phase_two: &[ChartPoint], title: &str) ->
         s,
         r#"<text x="{}" y="{}" text-anchor="middle">point (in time order)</text>"#,
         LEFT + plot_w / 2.0,
-        HEIGHT - 22.0
+        bottom + 36.0
     );
     let _ = writeln!(
         s,
@@ -250,26 +252,24 @@ pub fn chart_svg(chart: &ControlChart, phase_two: &[ChartPoint], title: &str) ->
         );
     }
     // Legend.
-    let ly = HEIGHT - 10.0;
+    let ly = HEIGHT - 12.0;
     let _ = writeln!(
         s,
-        r##"<circle cx="{}" cy="{}" r="3.6" fill="#1565c0"/><text x="{}" y="{}">in control</text><circle cx="{}" cy="{}" r="3.6" fill="#c62828"/><text x="{}" y="{}">signal</text><circle cx="{}" cy="{}" r="3.6" fill="white" stroke="#555"/><text x="{}" y="{}">removed from the estimate</text><text x="{}" y="{}" text-anchor="end" fill="#555">false-alarm rate {} per point (ARL {:.0}); a signal is a prompt to investigate</text>"##,
+        r##"<circle cx="{}" cy="{}" r="3.6" fill="#1565c0"/><text x="{}" y="{ly}">in control</text><circle cx="{}" cy="{}" r="3.6" fill="#c62828"/><text x="{}" y="{ly}">signal</text><circle cx="{}" cy="{}" r="3.6" fill="white" stroke="#555"/><text x="{}" y="{ly}">removed from the estimate (Phase I)</text><line x1="{}" y1="{}" x2="{}" y2="{}" stroke="#c62828" stroke-width="1.5" stroke-dasharray="7 4"/><text x="{}" y="{ly}">upper control limit (UCL)</text>"##,
         LEFT + 4.0,
         ly - 4.0,
         LEFT + 12.0,
-        ly,
         LEFT + 100.0,
         ly - 4.0,
         LEFT + 108.0,
-        ly,
         LEFT + 170.0,
         ly - 4.0,
         LEFT + 178.0,
-        ly,
-        WIDTH - RIGHT,
-        ly,
-        label(chart.false_alarm().alpha()),
-        chart.false_alarm().average_run_length()
+        LEFT + 420.0,
+        ly - 4.0,
+        LEFT + 450.0,
+        ly - 4.0,
+        LEFT + 456.0,
     );
     s.push_str("</svg>\n");
     Ok(s)

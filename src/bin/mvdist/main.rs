@@ -3,12 +3,16 @@
 //! ```text
 //! mvdist fit DATA.csv --out MODEL.json [--columns a,b,c]
 //! mvdist score MODEL.json DATA.csv --out SCORES.csv [--alpha 0.01] [--in-sample] [--adjust bh]
+//! mvdist compare-means A.csv [B.csv] [--target 1,2,…] [--paired | --unequal-scatter] [--json]
+//! mvdist chart DATA.csv --out POINTS.csv [--svg CHART.svg] [--new NEW.csv] [--alpha A | --arl N]
 //! ```
 //!
 //! Errors go to stderr with the file, the line (1-based, counting the
 //! header as line 1) and the column; the exit code is 1 and no output file
 //! is left behind.
 
+mod chart;
+mod compare_means;
 mod fit;
 mod output;
 mod score;
@@ -31,6 +35,10 @@ enum Command {
     Fit(fit::FitArgs),
     /// Score rows against a model file: squared distance, p-value, flag, top variable.
     Score(score::ScoreArgs),
+    /// Hotelling T² test of mean vectors: one sample vs a target, or two samples.
+    CompareMeans(compare_means::CompareMeansArgs),
+    /// T² control chart: Phase I on historical rows, Phase II on new rows; CSV and SVG.
+    Chart(chart::ChartArgs),
 }
 
 /// An error for the user: what went wrong, where, and what to do.
@@ -48,6 +56,8 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Fit(args) => fit::run(&args),
         Command::Score(args) => score::run(&args),
+        Command::CompareMeans(args) => compare_means::run(&args),
+        Command::Chart(args) => chart::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -240,7 +240,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     Ok(())
 }
 
-fn csv_field(s: &str) -> String {
+pub fn csv_field(s: &str) -> String {
     if s.contains([',', '"', '\n', '\r']) {
         format!("\"{}\"", s.replace('"', "\"\""))
     } else {
