@@ -417,7 +417,8 @@ fn demo_runs_and_writes_its_charts() {
     );
     assert!(stdout.contains("flagged"), "{stdout}");
     assert!(stdout.contains("Caution"), "{stdout}");
-    for chart in ["new_batches.svg", "reference_qq.svg"] {
+    assert!(stdout.contains("T² control chart"), "{stdout}");
+    for chart in ["new_batches.svg", "reference_qq.svg", "t2_chart.svg"] {
         let svg = std::fs::read_to_string(out.join(chart)).unwrap();
         assert!(svg.starts_with("<svg") && svg.contains("</svg>"), "{chart}");
     }
@@ -572,7 +573,7 @@ fn chart_writes_points_and_svg_that_match_the_library() {
     let (header, rows) = read_points(&out);
     assert_eq!(
         header.join(","),
-        "phase,point,first_row,last_row,label,status,t2,ucl,p_value,signal,top_term,top_term_value,top_term_cutoff,terms_over_cutoff,top_variable,top_share"
+        "phase,point,first_row,last_row,label,status,t2,ucl,p_value,signal,top_term,top_term_value,top_term_cutoff,terms_over_cutoff,out_of_range,broken_relationships,top_variable,top_share"
     );
     assert_eq!(rows.len(), 100);
     for (r, pt) in rows.iter().zip(chart.phase_one_points().iter().chain(&new)) {

@@ -92,6 +92,48 @@ impl SignalDiagnosis {
     pub fn exceeding(&self) -> impl Iterator<Item = &RatedTerm> {
         self.terms.iter().filter(|t| t.exceeds())
     }
+
+    /// Unconditional terms above their cutoffs: variables out of their
+    /// usual range on their own, most surprising first.
+    pub fn out_of_range(&self) -> Vec<&RatedTerm> {
+        self.exceeding().filter(|t| t.given.is_empty()).collect()
+    }
+
+    /// Conditional terms above their cutoffs that involve no variable
+    /// already out of range (neither as `j` nor in `J`): relationships
+    /// broken among variables that are each within range, most surprising
+    /// first. This is the reading order of Mason, Tracy and Young (1997):
+    /// first the unconditional terms, then the conditional terms of the
+    /// remaining variables.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::control_chart::{ControlChart, PhaseOneSettings};
+    /// use ndarray::Array2;
+    ///
+    /// // Two strongly correlated variables.
+    /// let rows = Array2::from_shape_fn((40, 2), |(i, j)| {
+    ///     let x = (i as f64 * 0.37).sin() * 3.0;
+    ///     if j == 0 { x } else { x + 0.3 * (i as f64 * 1.7).cos() }
+    /// });
+    /// let chart = ControlChart::individuals(rows.view(), &PhaseOneSettings::default())?;
+    /// // Each value in range, but the pair disagrees.
+    /// let points = chart.monitor(ndarray::array![[2.0, -2.0]].view())?;
+    /// let d = points[0].diagnosis.as_ref().expect("a signal");
+    /// assert!(d.out_of_range().is_empty());
+    /// assert!(!d.broken_relationships().is_empty());
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn broken_relationships(&self) -> Vec<&RatedTerm> {
+        let out: Vec<usize> = self.out_of_range().iter().map(|t| t.variable).collect();
+        self.exceeding()
+            .filter(|t| {
+                !t.given.is_empty()
+                    && !out.contains(&t.variable)
+                    && t.given.iter().all(|g| !out.contains(g))
+            })
+            .collect()
+    }
 }
 
 /// Rates raw terms against the limit's term laws.

@@ -102,6 +102,17 @@ fn label(v: f64) -> String {
     }
 }
 
+/// A probability with four significant digits.
+fn probability(p: f64) -> String {
+    if p >= 1e-3 {
+        let digits = 4 + (-p.log10()).floor() as usize;
+        let s = format!("{p:.digits$}");
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        format!("{p:.3e}")
+    }
+}
+
 /// The chart as an SVG document: Phase I points (removed ones hollow),
 /// then `phase_two` points after a divider, each phase with its upper
 /// control limit; signals in red. Every point has a tooltip with its T².
@@ -149,10 +160,10 @@ pub fn chart_svg(chart: &ControlChart, phase_two: &[ChartPoint], title: &str) ->
     let _ = writeln!(s, r#"<rect width="100%" height="100%" fill="white"/>"#);
     let _ = writeln!(
         s,
-        r##"<text x="{0}" y="24" text-anchor="middle" font-size="17">{1}</text><text x="{0}" y="41" text-anchor="middle" fill="#555">false-alarm rate {2} per point (in-control ARL {3:.0}); limits assume independent, normal in-control data; a signal is a prompt to investigate</text>"##,
+        r##"<text x="{0}" y="24" text-anchor="middle" font-size="17">{1}</text><text x="{0}" y="41" text-anchor="middle" font-size="11" fill="#555">α = {2} per point (in-control ARL {3:.0}) · limits assume independent, normal in-control data · a signal is a prompt to investigate</text>"##,
         WIDTH / 2.0,
         escape(title),
-        chart.false_alarm().alpha(),
+        probability(chart.false_alarm().alpha()),
         chart.false_alarm().average_run_length()
     );
     // Grid, ticks and axes.

@@ -187,7 +187,8 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     }
     header.extend([
         "status", "t2", "ucl", "p_value", "signal", "top_term", "top_term_value",
-        "top_term_cutoff", "terms_over_cutoff", "top_variable", "top_share",
+        "top_term_cutoff", "terms_over_cutoff", "out_of_range", "broken_relationships",
+        "top_variable", "top_share",
     ]);
     writeln!(out.writer(), "{}", header.join(",")).map_err(io)?;
     for (phase, points, labels) in [(1, chart.phase_one_points(), &history.labels), (2, new_points.as_slice(), &new_labels)] {
@@ -206,16 +207,21 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                     } else {
                         0.0
                     };
+                    let list = |terms: Vec<&mvdist::control_chart::RatedTerm>| {
+                        terms.iter().map(|t| t.label(&names)).collect::<Vec<_>>().join("; ")
+                    };
                     format!(
-                        "{},{},{},{},{},{share:.4}",
+                        "{},{},{},{},{},{},{},{share:.4}",
                         csv_field(&top.map_or_else(String::new, |t| t.label(&names))),
                         top.map_or(f64::NAN, |t| t.value),
                         top.map_or(f64::NAN, |t| t.cutoff),
                         d.exceeding().count(),
+                        csv_field(&list(d.out_of_range())),
+                        csv_field(&list(d.broken_relationships())),
                         csv_field(&names[d.contributions.top_variable()])
                     )
                 }
-                None => ",,,,,".to_string(),
+                None => ",,,,,,,".to_string(),
             };
             writeln!(
                 out.writer(),
@@ -274,8 +280,10 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     for (phase, pt) in signals.iter().take(12) {
         if let Some(d) = &pt.diagnosis {
             let top = d.terms.first();
+            let range: Vec<String> = d.out_of_range().iter().map(|t| t.label(&names)).collect();
+            let broken: Vec<String> = d.broken_relationships().iter().take(3).map(|t| t.label(&names)).collect();
             println!(
-                "  Phase {} point {}: T² = {:.3} > {:.3}; largest term {} = {:.3} (cutoff {:.3}); top variable {}",
+                "  Phase {} point {}: T² = {:.3} > {:.3}; largest term {} = {:.3} (cutoff {:.3}); out of range: {}; broken relationships: {}",
                 if *phase == 1 { "I" } else { "II" },
                 pt.index + 1,
                 pt.t_squared,
@@ -283,7 +291,8 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                 top.map_or_else(String::new, |t| t.label(&names)),
                 top.map_or(f64::NAN, |t| t.value),
                 top.map_or(f64::NAN, |t| t.cutoff),
-                names[d.contributions.top_variable()]
+                if range.is_empty() { "none".to_string() } else { range.join(", ") },
+                if broken.is_empty() { "none".to_string() } else { broken.join("; ") },
             );
         }
     }
