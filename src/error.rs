@@ -148,6 +148,13 @@ pub enum Error {
 }
 
 impl Error {
+    pub(crate) fn in_group(group: usize) -> impl Fn(Error) -> Error {
+        move |error| Error::InGroup {
+            group,
+            cause: Box::new(error),
+        }
+    }
+
     pub(crate) fn invalid(name: &'static str, reason: impl Into<String>) -> Self {
         Error::InvalidParameter {
             name,

@@ -78,12 +78,14 @@
 
 pub mod calibration;
 pub mod classification;
+pub mod control_chart;
 pub mod data;
 pub mod distance;
 pub mod drift;
 mod error;
 pub mod explain;
 mod linalg;
+pub mod mean_tests;
 mod model;
 pub mod model_file;
 pub mod moments;

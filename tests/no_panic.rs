@@ -323,6 +323,81 @@ proptest! {
     }
 
     #[test]
+    fn mean_tests_and_charts_never_panic(a in matrix(), b in matrix(), depth in 0usize..4, size in 0usize..4, alpha in special()) {
+        use mvdist::control_chart::{
+            chart_svg, decomposition, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,
+            PhaseOneStart, PointOrigin, SignalRemoval,
+        };
+        use mvdist::mean_tests;
+        let p = a.ncols();
+        let target: Vec<f64> = a.iter().copied().chain([0.5; 4]).take(p).collect();
+        let tests = [
+            mean_tests::one_sample(a.view(), &target),
+            mean_tests::one_sample(a.view(), &[1.0]),
+            mean_tests::paired(a.view(), b.view()),
+            mean_tests::two_sample(a.view(), b.view()),
+            mean_tests::two_sample_unequal_scatter(a.view(), b.view()),
+        ];
+        for t in tests.into_iter().flatten() {
+            assert!(t.t_squared().is_finite() && t.f_statistic().is_finite());
+            assert!((0.0..=1.0).contains(&t.p_value()));
+            for lvl in [0.05, alpha] {
+                if let Ok(ivs) = t.intervals(lvl) {
+                    for iv in ivs {
+                        assert!(!iv.simultaneous.lower.is_nan() && !iv.bonferroni.upper.is_nan());
+                    }
+                }
+                let _ = t.critical_t_squared(lvl);
+                let _ = t.rejects(lvl);
+            }
+        }
+        for groups in [vec![a.view(), b.view()], vec![a.view()], vec![a.view(), a.view(), b.view()]] {
+            if let Ok(m) = mean_tests::scatter_equality(&groups) {
+                assert!(m.statistic().is_finite());
+                let _ = m.suggested_rule(alpha);
+            }
+        }
+        let rate = FalseAlarmRate::per_point(alpha.abs().fract()).unwrap_or_default();
+        let _ = FalseAlarmRate::from_average_run_length(alpha);
+        for removal in [SignalRemoval::Keep, SignalRemoval::RefitUntilClean { max_rounds: 3 }] {
+            let settings = PhaseOneSettings { false_alarm: rate, removal, start: PhaseOneStart::AllRows, diagnosis_depth: depth };
+            let charts = [ControlChart::individuals(a.view(), &settings), ControlChart::subgroups(a.view(), size, &settings)];
+            for chart in charts.into_iter().flatten() {
+                for pt in chart.phase_one_points() {
+                    assert!(pt.t_squared.is_finite() && pt.upper_limit.is_finite());
+                }
+                if let Ok(points) = chart.monitor(b.view()) {
+                    assert!(points.iter().all(|pt| pt.t_squared.is_finite()));
+                    let _ = chart_svg(&chart, &points, "t");
+                }
+                let row: Vec<f64> = b.iter().copied().chain([1.0; 4]).take(chart.dim()).collect();
+                let _ = chart.diagnose(&row, PointOrigin::New, depth);
+                let _ = chart.decompose_along(&row, &(0..chart.dim()).rev().collect::<Vec<_>>(), PointOrigin::InEstimate);
+                let _ = chart.decompose_along(&row, &[0, 0], PointOrigin::New);
+                let _ = decomposition::conditional_terms(chart.point_scatter(), &row, depth);
+            }
+            if let Ok(model) = DistanceModel::fit(b.view()) {
+                let screened = PhaseOneSettings { start: PhaseOneStart::ScreenWith { model, origin: RowOrigin::KnownParameters }, ..settings };
+                let _ = ControlChart::individuals(a.view(), &screened);
+            }
+        }
+        let (n, q) = a.dim();
+        for limit in [
+            ControlLimit::individuals_phase_one(n, q), ControlLimit::individuals_phase_two(n, q),
+            ControlLimit::subgroups_phase_one(n, size, q), ControlLimit::subgroups_phase_two(n, size, q),
+            Ok(ControlLimit::SubgroupsPhaseOne { subgroups: n, size, dim: q }),
+            Ok(ControlLimit::IndividualsPhaseOne { observations: n, dim: q }),
+        ].into_iter().flatten() {
+            ok_finite(limit.upper(rate));
+            let pv = limit.p_value(alpha);
+            assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
+            if let Ok(d) = limit.term_distribution(depth) {
+                ok_finite(d.cutoff(0.01));
+            }
+        }
+    }
+
+    #[test]
     fn arbitrary_bytes_never_crash_the_deserializers(bytes in proptest::collection::vec(any::<u8>(), 0..200)) {
         let text = String::from_utf8_lossy(&bytes);
         let _ = serde_json::from_str::<DistanceModel>(&text);

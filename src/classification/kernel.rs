@@ -214,8 +214,7 @@ pub(crate) fn predict_block(
 ) {
     #[cfg(target_arch = "x86_64")]
     {
-        if std::arch::is_x86_feature_detected!("avx512f")
-            && crate::distance::kernel::has_avx2_fma()
+        if std::arch::is_x86_feature_detected!("avx512f") && crate::distance::kernel::has_avx2_fma()
         {
             // SAFETY: the CPU supports AVX-512F, AVX2 and FMA (checked at run time).
             unsafe { block_avx512(rule, x, d2, post, assigned, s) };
@@ -247,11 +246,15 @@ mod tests {
         // Invented rows from a fixed linear congruential sequence.
         let mut state = 12345u64;
         let mut next = || {
-            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
             (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
         };
         let (n, p) = (61, 5);
-        let x = ndarray::Array2::from_shape_fn((n, p), |(i, j)| next() + (i % 3) as f64 * (j as f64 - 1.0));
+        let x = ndarray::Array2::from_shape_fn((n, p), |(i, j)| {
+            next() + (i % 3) as f64 * (j as f64 - 1.0)
+        });
         let labels: Vec<usize> = (0..n).map(|i| i % 3).collect();
         for rule in [Rule::Linear, Rule::Quadratic] {
             let c = Classifier::fit(x.view(), &labels, &ClassifierOptions::new(rule)).unwrap();

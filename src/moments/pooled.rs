@@ -78,6 +78,12 @@ impl<L: Eq + Hash + Clone> GroupMoments<L> {
         })
     }
 
+    /// Groups already accumulated, with their labels (crate-internal: the
+    /// two-sample tests and the subgroup charts build their groups this way).
+    pub(crate) fn from_accumulators(labels: Vec<L>, groups: Vec<MomentAccumulator>) -> Self {
+        GroupMoments { labels, groups }
+    }
+
     /// The group labels, in order of first appearance.
     pub fn labels(&self) -> &[L] {
         &self.labels

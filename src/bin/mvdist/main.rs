@@ -4,13 +4,17 @@
 //! mvdist fit DATA.csv --out MODEL.json [--columns a,b,c]
 //! mvdist score MODEL.json DATA.csv --out SCORES.csv [--alpha 0.01] [--in-sample] [--adjust bh]
 //! mvdist classify --train TRAIN.csv --label COLUMN DATA.csv --out OUT.csv [--rule linear|quadratic] [--priors equal|proportional] [--loo]
+//! mvdist compare-means A.csv [B.csv] [--target 1,2,…] [--paired | --unequal-scatter] [--json]
+//! mvdist chart DATA.csv --out POINTS.csv [--svg CHART.svg] [--new NEW.csv] [--alpha A | --arl N]
 //! ```
 //!
 //! Errors go to stderr with the file, the line (1-based, counting the
 //! header as line 1) and the column; the exit code is 1 and no output file
 //! is left behind.
 
+mod chart;
 mod classify;
+mod compare_means;
 mod fit;
 mod output;
 mod score;
@@ -35,6 +39,10 @@ enum Command {
     Score(score::ScoreArgs),
     /// Assign rows to groups learned from labelled training rows: group, posterior, typicality, distances.
     Classify(classify::ClassifyArgs),
+    /// Hotelling T² test of mean vectors: one sample vs a target, or two samples.
+    CompareMeans(compare_means::CompareMeansArgs),
+    /// T² control chart: Phase I on historical rows, Phase II on new rows; CSV and SVG.
+    Chart(chart::ChartArgs),
 }
 
 /// An error for the user: what went wrong, where, and what to do.
@@ -53,6 +61,8 @@ fn main() -> ExitCode {
         Command::Fit(args) => fit::run(&args),
         Command::Score(args) => score::run(&args),
         Command::Classify(args) => classify::run(&args),
+        Command::CompareMeans(args) => compare_means::run(&args),
+        Command::Chart(args) => chart::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -227,6 +227,8 @@ pub struct Table {
     pub data: Vec<f64>,
     pub rows: usize,
     pub skipped: usize,
+    /// The label of each complete row (empty without a label column).
+    pub labels: Vec<String>,
 }
 
 pub fn read_table(
@@ -234,9 +236,32 @@ pub fn read_table(
     choice: &ColumnChoice,
     skip_incomplete: bool,
 ) -> Result<Table, CliError> {
-    let (mut reader, headers) = open(path)?;
+    let (reader, headers) = open(path)?;
     let layout = layout(path, &headers, choice)?;
+    read_rows(path, reader, layout, skip_incomplete)
+}
+
+/// As [`read_table`], for given variable names (another file's), found by
+/// name in this file's header.
+pub fn read_table_named(
+    path: &Path,
+    names: &[String],
+    label: Option<&str>,
+    skip_incomplete: bool,
+) -> Result<Table, CliError> {
+    let (reader, headers) = open(path)?;
+    let layout = layout_for(path, &headers, names, label)?;
+    read_rows(path, reader, layout, skip_incomplete)
+}
+
+fn read_rows(
+    path: &Path,
+    mut reader: csv::Reader<File>,
+    layout: Layout,
+    skip_incomplete: bool,
+) -> Result<Table, CliError> {
     let mut data = Vec::new();
+    let mut labels = Vec::new();
     let mut rows = 0;
     let mut skipped = 0;
     let mut record = csv::StringRecord::new();
@@ -249,6 +274,9 @@ pub fn read_table(
         match parse_record(path, &record, &layout, &mut values)? {
             RowOutcome::Complete => {
                 data.extend_from_slice(&values);
+                if let Some(l) = layout.label {
+                    labels.push(record.get(l).unwrap_or("").to_string());
+                }
                 rows += 1;
             }
             RowOutcome::Missing(k) => {
@@ -271,5 +299,6 @@ pub fn read_table(
         data,
         rows,
         skipped,
+        labels,
     })
 }

@@ -1,0 +1,382 @@
+//! `mvdist chart`: a Hotelling T² control chart from CSV files — Phase I on
+//! historical rows, optional Phase II on new rows — written as a CSV of
+//! points (with limits and diagnoses) and an SVG picture.
+
+use crate::fit::explain_fit_error;
+use crate::output::csv_field;
+use crate::output::{write_atomically, PendingFile};
+use crate::table::{read_table, read_table_named, ColumnChoice};
+use crate::CliError;
+use mvdist::control_chart::{
+    chart_svg, ChartPoint, ControlChart, FalseAlarmRate, PhaseOneSettings, PhaseOneStart,
+    PointOrigin, PointStatus, SignalRemoval,
+};
+use mvdist::model_file::ModelFile;
+use mvdist::RowOrigin;
+use std::io::Write;
+use std::path::PathBuf;
+
+#[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
+pub enum StartReference {
+    /// F reference: the start model is a classical fit on other rows.
+    F,
+    /// χ² reference: the start model's parameters are taken as known (e.g. a robust fit).
+    Chi2,
+}
+
+#[derive(clap::Args)]
+pub struct ChartArgs {
+    /// CSV file of historical rows (Phase I), in time order.
+    pub data: PathBuf,
+    /// CSV file of new rows to monitor (Phase II), with the same variables.
+    #[arg(long)]
+    pub new: Option<PathBuf>,
+    /// Where to write the charted points with limits and diagnoses (CSV).
+    #[arg(long)]
+    pub out: PathBuf,
+    /// Where to write the chart picture (SVG).
+    #[arg(long)]
+    pub svg: Option<PathBuf>,
+    /// False-alarm probability per point.
+    #[arg(long, conflicts_with = "arl")]
+    pub alpha: Option<f64>,
+    /// In-control average run length instead of --alpha (alpha = 1/ARL).
+    #[arg(long)]
+    pub arl: Option<f64>,
+    /// Chart means of subgroups of this many consecutive rows.
+    #[arg(long)]
+    pub subgroup_size: Option<usize>,
+    /// Remove Phase I signals and re-estimate until none remain.
+    #[arg(long)]
+    pub remove_signals: bool,
+    /// With --remove-signals, the most removal rounds.
+    #[arg(long, default_value_t = 10)]
+    pub max_rounds: usize,
+    /// Most conditioning variables in the decomposition of a signal.
+    #[arg(long, default_value_t = 1)]
+    pub depth: usize,
+    /// A model file (from `mvdist fit` or another estimator) that screens the
+    /// Phase I rows before the first estimate (individual observations only).
+    #[arg(long)]
+    pub start_model: Option<PathBuf>,
+    /// How the start model's distances are referred.
+    #[arg(long, value_enum, default_value = "f")]
+    pub start_reference: StartReference,
+    /// Title of the SVG chart.
+    #[arg(long)]
+    pub title: Option<String>,
+    #[command(flatten)]
+    pub columns: ColumnChoice,
+    /// Leave out rows with a missing value (individual observations only).
+    #[arg(long)]
+    pub skip_incomplete: bool,
+}
+
+fn rate(args: &ChartArgs) -> Result<FalseAlarmRate, CliError> {
+    match (args.alpha, args.arl) {
+        (Some(a), _) => FalseAlarmRate::per_point(a)
+            .map_err(|_| CliError(format!("--alpha {a} is not between 0 and 1"))),
+        (None, Some(l)) => FalseAlarmRate::from_average_run_length(l)
+            .map_err(|_| CliError(format!("--arl {l} is not a number greater than 1"))),
+        (None, None) => Ok(FalseAlarmRate::default()),
+    }
+}
+
+fn status_text(s: &PointStatus) -> String {
+    match s {
+        PointStatus::InEstimate => "in_estimate".into(),
+        PointStatus::Removed { round, .. } => format!("removed_round_{round}"),
+        PointStatus::Monitored => "monitored".into(),
+    }
+}
+
+pub fn run(args: &ChartArgs) -> Result<(), CliError> {
+    let rate = rate(args)?;
+    if args.subgroup_size.is_some() && args.skip_incomplete {
+        return Err(CliError(
+            "--skip-incomplete cannot be used with --subgroup-size: leaving out a row would shift the subgroups".into(),
+        ));
+    }
+    if args.subgroup_size.is_some() && args.start_model.is_some() {
+        return Err(CliError(
+            "--start-model screens individual observations; it cannot be used with --subgroup-size"
+                .into(),
+        ));
+    }
+    let history = read_table(&args.data, &args.columns, args.skip_incomplete)?;
+    if history.skipped > 0 {
+        eprintln!(
+            "mvdist: skipped {} incomplete row(s) of {}",
+            history.skipped,
+            args.data.display()
+        );
+    }
+    let names = history.names.clone();
+    let p = names.len();
+    let start = match &args.start_model {
+        None => PhaseOneStart::AllRows,
+        Some(path) => {
+            let text = std::fs::read_to_string(path).map_err(|e| {
+                CliError(format!(
+                    "{}: cannot read the model file: {e}",
+                    path.display()
+                ))
+            })?;
+            let file = ModelFile::from_json(&text)
+                .map_err(|e| CliError(format!("{}: {e}", path.display())))?;
+            if file.variables() != names.as_slice() {
+                return Err(CliError(format!(
+                    "{}: the start model's variables ({}) are not the chart's ({})",
+                    path.display(),
+                    file.variables().join(", "),
+                    names.join(", ")
+                )));
+            }
+            PhaseOneStart::ScreenWith {
+                model: file.model().clone(),
+                origin: match args.start_reference {
+                    StartReference::F => RowOrigin::New,
+                    StartReference::Chi2 => RowOrigin::KnownParameters,
+                },
+            }
+        }
+    };
+    let settings = PhaseOneSettings {
+        false_alarm: rate,
+        removal: if args.remove_signals {
+            SignalRemoval::RefitUntilClean {
+                max_rounds: args.max_rounds,
+            }
+        } else {
+            SignalRemoval::Keep
+        },
+        start,
+        diagnosis_depth: args.depth,
+    };
+    let rows = mvdist::data::rows_from_slice(&history.data, p)?;
+    let chart = match args.subgroup_size {
+        None => ControlChart::individuals(rows, &settings),
+        Some(n) => ControlChart::subgroups(rows, n, &settings),
+    }
+    .map_err(|e| match e {
+        mvdist::Error::ShapeMismatch { expected, found, .. } if args.subgroup_size.is_some() => CliError(format!(
+            "{}: {found} rows do not divide into subgroups of {}; give a multiple ({expected} rows, for example)",
+            args.data.display(),
+            args.subgroup_size.unwrap_or(1)
+        )),
+        mvdist::Error::InvalidParameter { name, reason } => CliError(format!("{}: invalid {name}: {reason}", args.data.display())),
+        other => explain_fit_error(&args.data, &names, history.rows, other),
+    })?;
+
+    let (new_points, new_labels) = match &args.new {
+        None => (Vec::new(), Vec::new()),
+        Some(path) => {
+            let t = read_table_named(
+                path,
+                &names,
+                args.columns.label.as_deref(),
+                args.skip_incomplete,
+            )?;
+            if t.skipped > 0 {
+                eprintln!(
+                    "mvdist: skipped {} incomplete row(s) of {}",
+                    t.skipped,
+                    path.display()
+                );
+            }
+            let pts = chart
+                .monitor(mvdist::data::rows_from_slice(&t.data, p)?)
+                .map_err(|e| match e {
+                    mvdist::Error::ShapeMismatch { found, .. } => CliError(format!(
+                        "{}: {found} rows do not divide into subgroups of {}",
+                        path.display(),
+                        args.subgroup_size.unwrap_or(1)
+                    )),
+                    other => CliError(format!("{}: {other}", path.display())),
+                })?;
+            (pts, t.labels)
+        }
+    };
+
+    // Points CSV.
+    let size = args.subgroup_size.unwrap_or(1);
+    let mut out = PendingFile::create(&args.out)?;
+    let io = |e: std::io::Error| CliError(format!("{}: {e}", args.out.display()));
+    let mut header = vec!["phase", "point", "first_row", "last_row"];
+    if args.columns.label.is_some() {
+        header.push("label");
+    }
+    header.extend([
+        "status",
+        "t2",
+        "ucl",
+        "p_value",
+        "signal",
+        "top_term",
+        "top_term_value",
+        "top_term_cutoff",
+        "terms_over_cutoff",
+        "out_of_range",
+        "broken_relationships",
+        "top_variable",
+        "top_share",
+    ]);
+    writeln!(out.writer(), "{}", header.join(",")).map_err(io)?;
+    for (phase, points, labels) in [
+        (1, chart.phase_one_points(), &history.labels),
+        (2, new_points.as_slice(), &new_labels),
+    ] {
+        for pt in points {
+            let first = pt.index * size + 1;
+            let label = if args.columns.label.is_some() {
+                format!(
+                    ",{}",
+                    csv_field(labels.get(pt.index * size).map_or("", |s| s.as_str()))
+                )
+            } else {
+                String::new()
+            };
+            let diag = match &pt.diagnosis {
+                Some(d) => {
+                    let top = d.terms.first();
+                    let share = if d.t_squared > 0.0 {
+                        d.contributions.terms()[d.contributions.top_variable()] / d.t_squared
+                    } else {
+                        0.0
+                    };
+                    let list = |terms: Vec<&mvdist::control_chart::RatedTerm>| {
+                        terms
+                            .iter()
+                            .map(|t| t.label(&names))
+                            .collect::<Vec<_>>()
+                            .join("; ")
+                    };
+                    format!(
+                        "{},{},{},{},{},{},{},{share:.4}",
+                        csv_field(&top.map_or_else(String::new, |t| t.label(&names))),
+                        top.map_or(f64::NAN, |t| t.value),
+                        top.map_or(f64::NAN, |t| t.cutoff),
+                        d.exceeding().count(),
+                        csv_field(&list(d.out_of_range())),
+                        csv_field(&list(d.broken_relationships())),
+                        csv_field(&names[d.contributions.top_variable()])
+                    )
+                }
+                None => ",,,,,,,".to_string(),
+            };
+            writeln!(
+                out.writer(),
+                "{phase},{},{first},{}{label},{},{},{},{},{},{diag}",
+                pt.index + 1,
+                first + size - 1,
+                status_text(&pt.status),
+                pt.t_squared,
+                pt.upper_limit,
+                pt.p_value,
+                pt.signal
+            )
+            .map_err(io)?;
+        }
+    }
+    out.finish()?;
+    if let Some(svg) = &args.svg {
+        let title = args.title.clone().unwrap_or_else(|| {
+            format!(
+                "T² chart: {} ({})",
+                args.data
+                    .file_name()
+                    .map_or_else(String::new, |f| f.to_string_lossy().into_owned()),
+                names.join(", ")
+            )
+        });
+        write_atomically(svg, &chart_svg(&chart, &new_points, &title)?)?;
+    }
+
+    // Summary.
+    let unit = if size > 1 {
+        format!("subgroups of {size} rows")
+    } else {
+        "rows".to_string()
+    };
+    let removed = chart
+        .phase_one_points()
+        .iter()
+        .filter(|p| matches!(p.status, PointStatus::Removed { .. }))
+        .count();
+    let remaining = chart
+        .phase_one_points()
+        .iter()
+        .filter(|p| p.status == PointStatus::InEstimate && p.signal)
+        .count();
+    println!(
+        "Phase I: {} {unit} × {p} variables ({}); false-alarm rate {} per point (ARL {:.0})",
+        chart.phase_one_points().len(),
+        names.join(", "),
+        rate.alpha(),
+        rate.average_run_length()
+    );
+    println!(
+        "  estimate from {} points; Phase I UCL = {:.4}; {removed} removed in {} round(s){}; {remaining} signal(s) among the points kept",
+        chart.in_estimate(),
+        chart.upper_limit(PointOrigin::InEstimate)?,
+        chart.rounds().len().saturating_sub(1),
+        if chart.reached_round_cap() { " (stopped at --max-rounds with signals left)" } else { "" }
+    );
+    let phase_two_ucl = chart.upper_limit(PointOrigin::New)?;
+    if args.new.is_some() {
+        let signals = new_points.iter().filter(|p| p.signal).count();
+        println!(
+            "Phase II: {} new points, UCL = {phase_two_ucl:.4}: {signals} signal(s)",
+            new_points.len()
+        );
+    } else {
+        println!("  Phase II UCL for new points: {phase_two_ucl:.4}");
+    }
+    let signals: Vec<(usize, &ChartPoint)> = chart
+        .phase_one_points()
+        .iter()
+        .map(|p| (1, p))
+        .chain(new_points.iter().map(|p| (2, p)))
+        .filter(|(_, p)| p.signal)
+        .collect();
+    for (phase, pt) in signals.iter().take(12) {
+        if let Some(d) = &pt.diagnosis {
+            let top = d.terms.first();
+            let range: Vec<String> = d.out_of_range().iter().map(|t| t.label(&names)).collect();
+            let broken: Vec<String> = d
+                .broken_relationships()
+                .iter()
+                .take(3)
+                .map(|t| t.label(&names))
+                .collect();
+            println!(
+                "  Phase {} point {}: T² = {:.3} > {:.3}; largest term {} = {:.3} (cutoff {:.3}); out of range: {}; broken relationships: {}",
+                if *phase == 1 { "I" } else { "II" },
+                pt.index + 1,
+                pt.t_squared,
+                pt.upper_limit,
+                top.map_or_else(String::new, |t| t.label(&names)),
+                top.map_or(f64::NAN, |t| t.value),
+                top.map_or(f64::NAN, |t| t.cutoff),
+                if range.is_empty() { "none".to_string() } else { range.join(", ") },
+                if broken.is_empty() { "none".to_string() } else { broken.join("; ") },
+            );
+        }
+    }
+    if signals.len() > 12 {
+        println!(
+            "  … {} more signal(s) in {}",
+            signals.len() - 12,
+            args.out.display()
+        );
+    }
+    println!(
+        "wrote {}{}",
+        args.out.display(),
+        args.svg
+            .as_ref()
+            .map_or_else(String::new, |s| format!(" and {}", s.display()))
+    );
+    println!("note: the limits assume independent, multivariate normal in-control data; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
+    Ok(())
+}

@@ -1,0 +1,470 @@
+//! Upper control limits of T² charts and of the terms of their
+//! decomposition.
+
+use super::FalseAlarmRate;
+use crate::calibration::{BetaDistribution, FDistribution};
+use crate::error::{Error, Result};
+use serde::{Deserialize, Serialize};
+
+/// A scaled Beta or F distribution: the law of a charted statistic (or of a
+/// decomposition term) under an in-control normal process.
+///
+/// # Example
+/// ```
+/// use mvdist::control_chart::ScaledDistribution;
+///
+/// // F(2, 2) has P(X > x) = 1/(1 + x); scaled by 3: P(3X > 9) = 1/4.
+/// let d = ScaledDistribution::F { scale: 3.0, d1: 2.0, d2: 2.0 };
+/// assert!((d.p_value(9.0) - 0.25).abs() < 1e-15);
+/// assert!((d.cutoff(0.25)? - 9.0).abs() < 1e-12);
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum ScaledDistribution {
+    /// `scale · Beta(a, b)`, supported on `[0, scale]`.
+    Beta {
+        /// The multiplier.
+        scale: f64,
+        /// First shape.
+        a: f64,
+        /// Second shape.
+        b: f64,
+    },
+    /// `scale · F(d1, d2)`.
+    F {
+        /// The multiplier.
+        scale: f64,
+        /// Numerator degrees of freedom.
+        d1: f64,
+        /// Denominator degrees of freedom.
+        d2: f64,
+    },
+}
+
+impl ScaledDistribution {
+    /// Upper-tail probability `P(X > x)`; NaN for NaN or invalid parameters.
+    pub fn p_value(&self, x: f64) -> f64 {
+        if x.is_nan() {
+            return f64::NAN;
+        }
+        match *self {
+            ScaledDistribution::Beta { scale, a, b } => match BetaDistribution::new(a, b) {
+                Ok(_) if !(scale > 0.0) => f64::NAN,
+                Ok(_) if x >= scale => 0.0,
+                Ok(d) => d.tails_with_complement(x / scale, (scale - x) / scale).1,
+                Err(_) => f64::NAN,
+            },
+            ScaledDistribution::F { scale, d1, d2 } => match FDistribution::new(d1, d2) {
+                Ok(_) if !(scale > 0.0) => f64::NAN,
+                Ok(d) => d.sf(x / scale),
+                Err(_) => f64::NAN,
+            },
+        }
+    }
+
+    /// The value exceeded with probability `alpha`.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] unless `0 < alpha < 1` and the
+    /// parameters are positive and finite, or if the cutoff is not finite.
+    pub fn cutoff(&self, alpha: f64) -> Result<f64> {
+        let value = match *self {
+            ScaledDistribution::Beta { scale, a, b } => {
+                positive_scale(scale)?;
+                let (_, complement) = BetaDistribution::new(a, b)?.isf_with_complement(alpha)?;
+                scale * (1.0 - complement)
+            }
+            ScaledDistribution::F { scale, d1, d2 } => {
+                positive_scale(scale)?;
+                scale * FDistribution::new(d1, d2)?.isf(alpha)?
+            }
+        };
+        if value.is_finite() {
+            Ok(value)
+        } else {
+            Err(Error::invalid(
+                "alpha",
+                format!("the cutoff for alpha = {alpha} is not a finite number"),
+            ))
+        }
+    }
+}
+
+fn positive_scale(scale: f64) -> Result<()> {
+    if scale.is_finite() && scale > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            "scale",
+            format!("{scale} is not a finite positive number"),
+        ))
+    }
+}
+
+/// Whether a point's T² is judged against the estimate it helped form.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum PointOrigin {
+    /// The point is one of those the location and scatter were estimated
+    /// from (Phase I).
+    InEstimate,
+    /// The point is independent of the estimate (Phase II, or a Phase I
+    /// point removed from the estimate).
+    New,
+}
+
+/// The upper control limit of a T² chart, by chart design and phase.
+///
+/// `m` is the number of observations (or subgroups) in the estimate, `n`
+/// the subgroup size, `p` the number of variables, `f = m(n − 1)`:
+///
+/// | variant | T² of a point | in-control law of T² | source |
+/// |---|---|---|---|
+/// | individuals, Phase I | `(x − x̄)ᵀ S⁻¹ (x − x̄)`, `x` in the estimate | `(m−1)²/m · Beta(p/2, (m−p−1)/2)` | Tracy, Young and Mason (1992); NIST §6.5.4.3 |
+/// | individuals, Phase II | same, `x` new | `p(m+1)(m−1)/(m(m−p)) · F(p, m−p)` | Tracy, Young and Mason (1992); NIST §6.5.4.3 |
+/// | subgroups, Phase I | `n (x̄ⱼ − x̿)ᵀ S_p⁻¹ (x̄ⱼ − x̿)` | `p(m−1)(n−1)/(mn−m−p+1) · F(p, mn−m−p+1)` | Alt (1985); NIST §6.5.4.3 |
+/// | subgroups, Phase II | same, subgroup new | `p(m+1)(n−1)/(mn−m−p+1) · F(p, mn−m−p+1)` | Alt (1985); NIST §6.5.4.3 |
+///
+/// `S_p` is the pooled within-subgroup covariance (the average of the
+/// subgroup covariances) and `x̿` the mean of the subgroup means. The
+/// individuals limits and the subgroup Phase II limit are exact under
+/// normality (the Phase II subgroup law follows from `x̄ − x̿ ~ N(0,
+/// (1 + 1/m) Σ/n)` independent of `S_p ~ Wishart(f)/f`); the subgroup
+/// Phase I limit is Alt's approximation.
+///
+/// # Example
+/// ```
+/// use mvdist::control_chart::{ControlLimit, FalseAlarmRate};
+///
+/// let limit = ControlLimit::individuals_phase_two(50, 3)?;
+/// let ucl = limit.upper(FalseAlarmRate::per_point(0.01)?)?;
+/// assert!((limit.p_value(ucl) - 0.01).abs() < 1e-12);
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum ControlLimit {
+    /// Individual observations in the estimate (Beta limit).
+    IndividualsPhaseOne {
+        /// Observations in the estimate, `m`.
+        observations: usize,
+        /// Variables, `p`.
+        dim: usize,
+    },
+    /// New individual observations (F limit).
+    IndividualsPhaseTwo {
+        /// Observations in the estimate, `m`.
+        observations: usize,
+        /// Variables, `p`.
+        dim: usize,
+    },
+    /// Subgroup means in the estimate.
+    SubgroupsPhaseOne {
+        /// Subgroups in the estimate, `m`.
+        subgroups: usize,
+        /// Rows per subgroup, `n`.
+        size: usize,
+        /// Variables, `p`.
+        dim: usize,
+    },
+    /// New subgroup means.
+    SubgroupsPhaseTwo {
+        /// Subgroups in the estimate, `m`.
+        subgroups: usize,
+        /// Rows per subgroup, `n`.
+        size: usize,
+        /// Variables, `p`.
+        dim: usize,
+    },
+}
+
+impl ControlLimit {
+    /// Phase I limit for individual observations.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] unless `m ≥ p + 2`; [`Error::InvalidParameter`]
+    /// if `p = 0`.
+    pub fn individuals_phase_one(observations: usize, dim: usize) -> Result<Self> {
+        let l = ControlLimit::IndividualsPhaseOne { observations, dim };
+        l.distribution()?;
+        Ok(l)
+    }
+
+    /// Phase II limit for individual observations.
+    ///
+    /// # Errors
+    /// [`Error::TooFewRows`] unless `m ≥ p + 1`; [`Error::InvalidParameter`]
+    /// if `p = 0`.
+    pub fn individuals_phase_two(observations: usize, dim: usize) -> Result<Self> {
+        let l = ControlLimit::IndividualsPhaseTwo { observations, dim };
+        l.distribution()?;
+        Ok(l)
+    }
+
+    /// Phase I limit for subgroup means.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] unless `n ≥ 2`, `m ≥ 2` and `p ≥ 1`;
+    /// [`Error::TooFewRows`] unless `m(n − 1) ≥ p`.
+    pub fn subgroups_phase_one(subgroups: usize, size: usize, dim: usize) -> Result<Self> {
+        let l = ControlLimit::SubgroupsPhaseOne {
+            subgroups,
+            size,
+            dim,
+        };
+        l.distribution()?;
+        Ok(l)
+    }
+
+    /// Phase II limit for subgroup means.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] unless `n ≥ 2`, `m ≥ 1` and `p ≥ 1`;
+    /// [`Error::TooFewRows`] unless `m(n − 1) ≥ p`.
+    pub fn subgroups_phase_two(subgroups: usize, size: usize, dim: usize) -> Result<Self> {
+        let l = ControlLimit::SubgroupsPhaseTwo {
+            subgroups,
+            size,
+            dim,
+        };
+        l.distribution()?;
+        Ok(l)
+    }
+
+    /// Number of variables `p`.
+    pub fn dim(&self) -> usize {
+        match *self {
+            ControlLimit::IndividualsPhaseOne { dim, .. }
+            | ControlLimit::IndividualsPhaseTwo { dim, .. }
+            | ControlLimit::SubgroupsPhaseOne { dim, .. }
+            | ControlLimit::SubgroupsPhaseTwo { dim, .. } => dim,
+        }
+    }
+
+    /// Whether charted points belong to the estimate (Phase I).
+    pub fn origin(&self) -> PointOrigin {
+        match self {
+            ControlLimit::IndividualsPhaseOne { .. } | ControlLimit::SubgroupsPhaseOne { .. } => {
+                PointOrigin::InEstimate
+            }
+            _ => PointOrigin::New,
+        }
+    }
+
+    /// The limit of the same design and estimate for the other kind of
+    /// point (Phase I ↔ Phase II).
+    pub fn for_origin(&self, origin: PointOrigin) -> ControlLimit {
+        use ControlLimit::*;
+        match (*self, origin) {
+            (IndividualsPhaseOne { observations, dim }, PointOrigin::New)
+            | (IndividualsPhaseTwo { observations, dim }, PointOrigin::New) => {
+                IndividualsPhaseTwo { observations, dim }
+            }
+            (IndividualsPhaseOne { observations, dim }, PointOrigin::InEstimate)
+            | (IndividualsPhaseTwo { observations, dim }, PointOrigin::InEstimate) => {
+                IndividualsPhaseOne { observations, dim }
+            }
+            (
+                SubgroupsPhaseOne {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::New,
+            )
+            | (
+                SubgroupsPhaseTwo {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::New,
+            ) => SubgroupsPhaseTwo {
+                subgroups,
+                size,
+                dim,
+            },
+            (
+                SubgroupsPhaseOne {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::InEstimate,
+            )
+            | (
+                SubgroupsPhaseTwo {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::InEstimate,
+            ) => SubgroupsPhaseOne {
+                subgroups,
+                size,
+                dim,
+            },
+        }
+    }
+
+    /// The in-control law of a point's T² (see the table above).
+    ///
+    /// # Errors
+    /// As the constructors (the fields are public, so a hand-built value is
+    /// re-checked here).
+    pub fn distribution(&self) -> Result<ScaledDistribution> {
+        self.term_or_total(None)
+    }
+
+    /// The in-control law of a decomposition term `T²_{j·J}` with `k = |J|`
+    /// conditioning variables (Mason, Tracy and Young 1995, 1997):
+    ///
+    /// | design and phase | law of `T²_{j·J}` |
+    /// |---|---|
+    /// | individuals, Phase I | `(m−1)²/m · Beta(1/2, (m−k−2)/2)` |
+    /// | individuals, Phase II | `(m+1)(m−1)/(m(m−k−1)) · F(1, m−k−1)` |
+    /// | subgroups, Phase I | `(m−1)/m · f/(f−k) · F(1, f−k)` |
+    /// | subgroups, Phase II | `(m+1)/m · f/(f−k) · F(1, f−k)` |
+    ///
+    /// The individuals rows are the published limits (for `k = 0` they are
+    /// the chart limits with `p = 1`). The subgroup rows are our extension
+    /// by the same construction, with the pooled within-subgroup degrees of
+    /// freedom `f = m(n−1)` in place of `m − 1`; for `k = 0` they reduce to
+    /// the subgroup chart limits with `p = 1`. They are not from the
+    /// papers.
+    ///
+    /// # Errors
+    /// As [`distribution`](Self::distribution); [`Error::InvalidParameter`]
+    /// unless `k < p`.
+    pub fn term_distribution(&self, conditioned: usize) -> Result<ScaledDistribution> {
+        self.distribution()?;
+        if conditioned >= self.dim() {
+            return Err(Error::invalid(
+                "conditioning variables",
+                format!(
+                    "{conditioned} conditioning variables; at most p − 1 = {} exist",
+                    self.dim() - 1
+                ),
+            ));
+        }
+        self.term_or_total(Some(conditioned))
+    }
+
+    fn term_or_total(&self, conditioned: Option<usize>) -> Result<ScaledDistribution> {
+        let p = self.dim();
+        if p == 0 {
+            return Err(Error::invalid(
+                "dim",
+                "the number of variables must be at least 1",
+            ));
+        }
+        let pf = p as f64;
+        match *self {
+            ControlLimit::IndividualsPhaseOne { observations, .. }
+            | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
+                let phase_one = matches!(self, ControlLimit::IndividualsPhaseOne { .. });
+                let needed = if phase_one { p + 2 } else { p + 1 };
+                if observations < needed {
+                    return Err(Error::TooFewRows {
+                        rows: observations,
+                        needed,
+                        columns: p,
+                    });
+                }
+                let m = observations as f64;
+                Ok(match (phase_one, conditioned) {
+                    (true, None) => ScaledDistribution::Beta {
+                        scale: (m - 1.0) * (m - 1.0) / m,
+                        a: pf / 2.0,
+                        b: (m - pf - 1.0) / 2.0,
+                    },
+                    (true, Some(k)) => ScaledDistribution::Beta {
+                        scale: (m - 1.0) * (m - 1.0) / m,
+                        a: 0.5,
+                        b: (m - k as f64 - 2.0) / 2.0,
+                    },
+                    (false, None) => ScaledDistribution::F {
+                        scale: pf * (m + 1.0) * (m - 1.0) / (m * (m - pf)),
+                        d1: pf,
+                        d2: m - pf,
+                    },
+                    (false, Some(k)) => {
+                        let kf = k as f64;
+                        ScaledDistribution::F {
+                            scale: (m + 1.0) * (m - 1.0) / (m * (m - kf - 1.0)),
+                            d1: 1.0,
+                            d2: m - kf - 1.0,
+                        }
+                    }
+                })
+            }
+            ControlLimit::SubgroupsPhaseOne {
+                subgroups, size, ..
+            }
+            | ControlLimit::SubgroupsPhaseTwo {
+                subgroups, size, ..
+            } => {
+                let phase_one = matches!(self, ControlLimit::SubgroupsPhaseOne { .. });
+                if size < 2 {
+                    return Err(Error::invalid(
+                        "subgroup size",
+                        format!(
+                            "{size}; subgroups need at least 2 rows for a within-subgroup scatter"
+                        ),
+                    ));
+                }
+                let min_groups = if phase_one { 2 } else { 1 };
+                if subgroups < min_groups {
+                    return Err(Error::invalid(
+                        "subgroups",
+                        format!("{subgroups}; at least {min_groups} are needed"),
+                    ));
+                }
+                let f = subgroups.saturating_mul(size - 1);
+                if f < p {
+                    let groups_needed = p.div_ceil(size - 1).max(min_groups);
+                    return Err(Error::TooFewRows {
+                        rows: subgroups.saturating_mul(size),
+                        needed: groups_needed.saturating_mul(size),
+                        columns: p,
+                    });
+                }
+                let (m, n, ff) = (subgroups as f64, size as f64, f as f64);
+                let factor = if phase_one { m - 1.0 } else { m + 1.0 };
+                Ok(match conditioned {
+                    None => ScaledDistribution::F {
+                        scale: pf * factor * (n - 1.0) / (ff - pf + 1.0),
+                        d1: pf,
+                        d2: ff - pf + 1.0,
+                    },
+                    Some(k) => {
+                        let kf = k as f64;
+                        ScaledDistribution::F {
+                            scale: factor / m * ff / (ff - kf),
+                            d1: 1.0,
+                            d2: ff - kf,
+                        }
+                    }
+                })
+            }
+        }
+    }
+
+    /// The upper control limit for the given false-alarm rate.
+    ///
+    /// # Errors
+    /// As [`distribution`](Self::distribution).
+    pub fn upper(&self, rate: FalseAlarmRate) -> Result<f64> {
+        self.distribution()?.cutoff(rate.alpha())
+    }
+
+    /// The probability that an in-control point's T² exceeds `t_squared`.
+    /// NaN for NaN input or an invalid hand-built limit.
+    pub fn p_value(&self, t_squared: f64) -> f64 {
+        match self.distribution() {
+            Ok(d) => d.p_value(t_squared),
+            Err(_) => f64::NAN,
+        }
+    }
+}
