@@ -175,7 +175,9 @@ proptest! {
             let pred = c.predict_row(x.row(i).as_slice().unwrap()).unwrap();
             for (h, l) in c.labels().iter().enumerate() {
                 let (d_loo, d_ref) = (loo.squared_distances()[(i, *l)], pred.squared_distances[h]);
-                prop_assert!(rel(d_loo, d_ref) < 1e-9 || (d_loo - d_ref).abs() < 1e-12, "row {} group {}: {} {}", i, l, d_loo, d_ref);
+                // Small groups under the quadratic rule are ill-conditioned: the two
+                // computations agree to about κ·ε, not to the last digit.
+                prop_assert!(rel(d_loo, d_ref) < 1e-7 || (d_loo - d_ref).abs() < 1e-12, "row {} group {}: {} {}", i, l, d_loo, d_ref);
                 prop_assert!((loo.posteriors()[(i, *l)] - pred.posteriors[h]).abs() < 1e-9);
             }
         }

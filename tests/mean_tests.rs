@@ -293,7 +293,10 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
     ));
     // Box's M: groups need p + 1 rows each, and two groups at least.
     match scatter_equality(&[a.view(), three.view()]) {
-        Err(Error::InGroup { group: 0, error }) => {
+        Err(Error::InGroup {
+            group: 0,
+            cause: error,
+        }) => {
             assert!(matches!(*error, Error::ZeroVariance { column: 2 }))
         }
         other => panic!("{other:?}"),
