@@ -245,10 +245,16 @@ fn t2_chart_section(
             println!("        broken relationship: {broken}");
         }
     }
-    println!("   (\"a | b\": a is unusual given b; a signal is a prompt to investigate, not a verdict)");
+    println!(
+        "   (\"a | b\": a is unusual given b; a signal is a prompt to investigate, not a verdict)"
+    );
     std::fs::write(
         svg,
-        chart_svg(&chart, &points, "Fermentation batches: T² chart (Phase I reference, Phase II new)")?,
+        chart_svg(
+            &chart,
+            &points,
+            "Fermentation batches: T² chart (Phase I reference, Phase II new)",
+        )?,
     )?;
     Ok(())
 }

@@ -457,17 +457,29 @@ fn compare_means_matches_the_library() {
         .assert()
         .success()
         .stdout(predicate::str::contains("pooled scatter"))
-        .stdout(predicate::str::contains(format!("T² = {:.6}", lib.t_squared())))
+        .stdout(predicate::str::contains(format!(
+            "T² = {:.6}",
+            lib.t_squared()
+        )))
         .stdout(predicate::str::contains("Box's M"))
         .stdout(predicate::str::contains("not proof"));
     // JSON for each two-sample kind.
     for (flag, lib) in [
         (None, lib.clone()),
-        (Some("--unequal-scatter"), mean_tests::two_sample_unequal_scatter(xa.view(), xb.view()).unwrap()),
-        (Some("--paired"), mean_tests::paired(xa.view(), xb.view()).unwrap()),
+        (
+            Some("--unequal-scatter"),
+            mean_tests::two_sample_unequal_scatter(xa.view(), xb.view()).unwrap(),
+        ),
+        (
+            Some("--paired"),
+            mean_tests::paired(xa.view(), xb.view()).unwrap(),
+        ),
     ] {
         let mut cmd = mvdist();
-        cmd.arg("compare-means").arg(&a).arg(&b).args(["--label", "flower", "--json", "--alpha", "0.1"]);
+        cmd.arg("compare-means")
+            .arg(&a)
+            .arg(&b)
+            .args(["--label", "flower", "--json", "--alpha", "0.1"]);
         if let Some(f) = flag {
             cmd.arg(f);
         }
@@ -477,24 +489,35 @@ fn compare_means_matches_the_library() {
         assert_eq!(v["test"]["p_value"].as_f64().unwrap(), lib.p_value());
         assert_eq!(v["variables"][3], "petal_width");
         let ivs = lib.intervals(0.1).unwrap();
-        assert_eq!(v["intervals"][2]["bonferroni"]["upper"].as_f64().unwrap(), ivs[2].bonferroni.upper);
+        assert_eq!(
+            v["intervals"][2]["bonferroni"]["upper"].as_f64().unwrap(),
+            ivs[2].bonferroni.upper
+        );
         assert!(v["caution"].as_str().unwrap().contains("qualified people"));
     }
     // One sample against a target.
     let one = mean_tests::one_sample(xa.view(), &[5.9, 2.8, 4.3, 1.3]).unwrap();
-    let v = json_of(
-        mvdist()
-            .arg("compare-means")
-            .arg(&a)
-            .args(["--label", "flower", "--target", "5.9,2.8,4.3,1.3", "--json"]),
-    );
+    let v = json_of(mvdist().arg("compare-means").arg(&a).args([
+        "--label",
+        "flower",
+        "--target",
+        "5.9,2.8,4.3,1.3",
+        "--json",
+    ]));
     assert_eq!(v["test"]["kind"], "one_sample");
     assert_eq!(v["test"]["t_squared"].as_f64().unwrap(), one.t_squared());
     assert_eq!(v["rejected_at_alpha"], one.p_value() <= 0.05);
     mvdist()
         .arg("compare-means")
         .arg(&a)
-        .args(["--label", "flower", "--target", "5.9,2.8,4.3,1.3", "--columns", "sepal_length,sepal_width,petal_length,petal_width"])
+        .args([
+            "--label",
+            "flower",
+            "--target",
+            "5.9,2.8,4.3,1.3",
+            "--columns",
+            "sepal_length,sepal_width,petal_length,petal_width",
+        ])
         .assert()
         .success()
         .stdout(predicate::str::contains("one sample against a target mean"));
@@ -511,16 +534,47 @@ fn compare_means_errors_name_the_problem() {
         for f in files {
             cmd.arg(f);
         }
-        cmd.args(args).assert().code(1).stderr(predicate::str::contains(message));
+        cmd.args(args)
+            .assert()
+            .code(1)
+            .stderr(predicate::str::contains(message));
     };
     run(&["--label", "flower"], &[&a], "needs --target");
-    run(&["--label", "flower", "--target", "1,2"], &[&a], "--target has 2 values but there are 4 variables");
-    run(&["--label", "flower", "--paired"], &[&a], "give a second CSV file");
-    run(&["--label", "flower", "--alpha", "2"], &[&a, &b], "--alpha 2");
-    let short = write(dir.path(), "short.csv", "flower,sepal_length,sepal_width,petal_length,petal_width\nx,1,2,3,4\ny,2,1,3,5\n");
-    run(&["--label", "flower", "--paired"], &[&a, &short], "one row per pair");
-    run(&["--label", "flower", "--target", "1,2,3,4"], &[&short], "too few for 4 variables");
-    run(&["--label", "flower", "--unequal-scatter"], &[&a, &short], "short.csv");
+    run(
+        &["--label", "flower", "--target", "1,2"],
+        &[&a],
+        "--target has 2 values but there are 4 variables",
+    );
+    run(
+        &["--label", "flower", "--paired"],
+        &[&a],
+        "give a second CSV file",
+    );
+    run(
+        &["--label", "flower", "--alpha", "2"],
+        &[&a, &b],
+        "--alpha 2",
+    );
+    let short = write(
+        dir.path(),
+        "short.csv",
+        "flower,sepal_length,sepal_width,petal_length,petal_width\nx,1,2,3,4\ny,2,1,3,5\n",
+    );
+    run(
+        &["--label", "flower", "--paired"],
+        &[&a, &short],
+        "one row per pair",
+    );
+    run(
+        &["--label", "flower", "--target", "1,2,3,4"],
+        &[&short],
+        "too few for 4 variables",
+    );
+    run(
+        &["--label", "flower", "--unequal-scatter"],
+        &[&a, &short],
+        "short.csv",
+    );
     // A column constant in both files makes the pooled scatter singular.
     let c1 = write(dir.path(), "c1.csv", "u,v,w\n1,2,7\n2,1,7\n3,5,7\n4,3,7\n");
     let c2 = write(dir.path(), "c2.csv", "u,v,w\n1,3,7\n2,2,7\n3,4,7\n5,3,7\n");
@@ -529,14 +583,31 @@ fn compare_means_errors_name_the_problem() {
     run(&[], &[&c1, &other], "not columns of this file");
     run(&["--paired", "--skip-incomplete"], &[&c1, &c2], "misalign");
     // Usage errors (exit 2): --paired with --unequal-scatter, --target with two files.
-    mvdist().arg("compare-means").arg(&c1).arg(&c2).args(["--paired", "--unequal-scatter"]).assert().code(2);
-    mvdist().arg("compare-means").arg(&c1).arg(&c2).args(["--target", "1,2,3"]).assert().code(2);
+    mvdist()
+        .arg("compare-means")
+        .arg(&c1)
+        .arg(&c2)
+        .args(["--paired", "--unequal-scatter"])
+        .assert()
+        .code(2);
+    mvdist()
+        .arg("compare-means")
+        .arg(&c1)
+        .arg(&c2)
+        .args(["--target", "1,2,3"])
+        .assert()
+        .code(2);
 }
 
 fn read_points(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
     let mut r = csv::Reader::from_path(path).unwrap();
     let header = r.headers().unwrap().iter().map(String::from).collect();
-    (header, r.records().map(|rec| rec.unwrap().iter().map(String::from).collect()).collect())
+    (
+        header,
+        r.records()
+            .map(|rec| rec.unwrap().iter().map(String::from).collect())
+            .collect(),
+    )
 }
 
 #[test]
@@ -556,7 +627,15 @@ fn chart_writes_points_and_svg_that_match_the_library() {
         .arg(&out)
         .arg("--svg")
         .arg(&svg)
-        .args(["--label", "flower", "--arl", "200", "--remove-signals", "--depth", "2"])
+        .args([
+            "--label",
+            "flower",
+            "--arl",
+            "200",
+            "--remove-signals",
+            "--depth",
+            "2",
+        ])
         .assert()
         .success()
         .stdout(predicate::str::contains("Phase I: 50 rows × 4 variables"))
@@ -594,7 +673,14 @@ fn chart_writes_points_and_svg_that_match_the_library() {
         .arg(&a)
         .arg("--out")
         .arg(&out2)
-        .args(["--label", "flower", "--subgroup-size", "5", "--alpha", "0.01"])
+        .args([
+            "--label",
+            "flower",
+            "--subgroup-size",
+            "5",
+            "--alpha",
+            "0.01",
+        ])
         .assert()
         .success()
         .stdout(predicate::str::contains("10 subgroups of 5 rows"));
@@ -610,7 +696,14 @@ fn chart_errors_leave_no_output() {
     let out = dir.path().join("points.csv");
     let other = write(dir.path(), "other.csv", "u,v\n1,2\n2,3\n3,1\n");
     let base = |extra: &[&str]| {
-        let mut v: Vec<std::ffi::OsString> = vec!["chart".into(), a.clone().into(), "--out".into(), out.clone().into(), "--label".into(), "flower".into()];
+        let mut v: Vec<std::ffi::OsString> = vec![
+            "chart".into(),
+            a.clone().into(),
+            "--out".into(),
+            out.clone().into(),
+            "--label".into(),
+            "flower".into(),
+        ];
         v.extend(extra.iter().map(|s| std::ffi::OsString::from(*s)));
         v
     };
@@ -619,19 +712,52 @@ fn chart_errors_leave_no_output() {
         let refs: Vec<&std::ffi::OsStr> = args.iter().map(|s| s.as_os_str()).collect();
         fails(&refs, &out, message);
     };
-    check(&["--new", other.to_str().unwrap()], "other.csv: unknown column 'flower'");
-    check(&["--subgroup-size", "7"], "do not divide into subgroups of 7");
+    check(
+        &["--new", other.to_str().unwrap()],
+        "other.csv: unknown column 'flower'",
+    );
+    check(
+        &["--subgroup-size", "7"],
+        "do not divide into subgroups of 7",
+    );
     check(&["--subgroup-size", "1"], "subgroup size");
     check(&["--alpha", "1.5"], "--alpha 1.5");
     check(&["--arl", "0.5"], "--arl 0.5");
-    check(&["--subgroup-size", "5", "--skip-incomplete"], "shift the subgroups");
-    let tiny = write(dir.path(), "tiny.csv", "flower,a,b,c\nx,1,2,3\ny,2,1,0\nz,3,3,1\nw,0,1,2\n");
-    let args: Vec<std::ffi::OsString> = vec!["chart".into(), tiny.into(), "--out".into(), out.clone().into(), "--label".into(), "flower".into()];
+    check(
+        &["--subgroup-size", "5", "--skip-incomplete"],
+        "shift the subgroups",
+    );
+    let tiny = write(
+        dir.path(),
+        "tiny.csv",
+        "flower,a,b,c\nx,1,2,3\ny,2,1,0\nz,3,3,1\nw,0,1,2\n",
+    );
+    let args: Vec<std::ffi::OsString> = vec![
+        "chart".into(),
+        tiny.into(),
+        "--out".into(),
+        out.clone().into(),
+        "--label".into(),
+        "flower".into(),
+    ];
     let refs: Vec<&std::ffi::OsStr> = args.iter().map(|s| s.as_os_str()).collect();
-    fails(&refs, &out, "4 complete rows are too few for 3 variables; at least 5");
+    fails(
+        &refs,
+        &out,
+        "4 complete rows are too few for 3 variables; at least 5",
+    );
     // A start model with other variables is refused.
     let model = dir.path().join("model.json");
-    mvdist().arg("fit").arg(&other).arg("--out").arg(&model).assert().success();
-    check(&["--start-model", model.to_str().unwrap()], "start model's variables");
+    mvdist()
+        .arg("fit")
+        .arg(&other)
+        .arg("--out")
+        .arg(&model)
+        .assert()
+        .success();
+    check(
+        &["--start-model", model.to_str().unwrap()],
+        "start model's variables",
+    );
     mvdist().args(["chart"]).assert().code(2);
 }

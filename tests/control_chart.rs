@@ -27,10 +27,22 @@ fn individual_limits_equal_the_handbook_formulas() {
         let m = case["m"].as_u64().unwrap() as usize;
         let p = case["p"].as_u64().unwrap() as usize;
         let rate = FalseAlarmRate::per_point(case["alpha"].as_f64().unwrap()).unwrap();
-        let one = ControlLimit::individuals_phase_one(m, p).unwrap().upper(rate).unwrap();
-        let two = ControlLimit::individuals_phase_two(m, p).unwrap().upper(rate).unwrap();
-        assert!(rel(one, case["phase1_ucl"].as_f64().unwrap()) < 1e-12, "m={m} p={p}");
-        assert!(rel(two, case["phase2_ucl"].as_f64().unwrap()) < 1e-12, "m={m} p={p}");
+        let one = ControlLimit::individuals_phase_one(m, p)
+            .unwrap()
+            .upper(rate)
+            .unwrap();
+        let two = ControlLimit::individuals_phase_two(m, p)
+            .unwrap()
+            .upper(rate)
+            .unwrap();
+        assert!(
+            rel(one, case["phase1_ucl"].as_f64().unwrap()) < 1e-12,
+            "m={m} p={p}"
+        );
+        assert!(
+            rel(two, case["phase2_ucl"].as_f64().unwrap()) < 1e-12,
+            "m={m} p={p}"
+        );
         // The ARL form gives the same limit.
         let arl = FalseAlarmRate::from_average_run_length(1.0 / rate.alpha()).unwrap();
         assert!(rel(arl.alpha(), rate.alpha()) < 1e-15);
@@ -49,10 +61,22 @@ fn subgroup_limits_equal_the_handbook_formulas() {
         let g = |k: &str| case[k].as_u64().unwrap() as usize;
         let (m, n, p) = (g("m"), g("n"), g("p"));
         let rate = FalseAlarmRate::per_point(case["alpha"].as_f64().unwrap()).unwrap();
-        let one = ControlLimit::subgroups_phase_one(m, n, p).unwrap().upper(rate).unwrap();
-        let two = ControlLimit::subgroups_phase_two(m, n, p).unwrap().upper(rate).unwrap();
-        assert!(rel(one, case["phase1_ucl"].as_f64().unwrap()) < 1e-10, "m={m} n={n} p={p}");
-        assert!(rel(two, case["phase2_ucl"].as_f64().unwrap()) < 1e-10, "m={m} n={n} p={p}");
+        let one = ControlLimit::subgroups_phase_one(m, n, p)
+            .unwrap()
+            .upper(rate)
+            .unwrap();
+        let two = ControlLimit::subgroups_phase_two(m, n, p)
+            .unwrap()
+            .upper(rate)
+            .unwrap();
+        assert!(
+            rel(one, case["phase1_ucl"].as_f64().unwrap()) < 1e-10,
+            "m={m} n={n} p={p}"
+        );
+        assert!(
+            rel(two, case["phase2_ucl"].as_f64().unwrap()) < 1e-10,
+            "m={m} n={n} p={p}"
+        );
     }
 }
 
@@ -75,11 +99,17 @@ fn term_laws_reduce_to_the_chart_laws_for_one_variable() {
                 ControlLimit::subgroups_phase_two(m, 4, 1).unwrap(),
             ),
         ] {
-            assert_eq!(limit.term_distribution(0).unwrap(), one_var.distribution().unwrap());
+            assert_eq!(
+                limit.term_distribution(0).unwrap(),
+                one_var.distribution().unwrap()
+            );
         }
         // Published Phase II conditional law: (m+1)(m−1)/(m(m−k−1)) F(1, m−k−1).
         let k = 2;
-        let d = ControlLimit::individuals_phase_two(m, p).unwrap().term_distribution(k).unwrap();
+        let d = ControlLimit::individuals_phase_two(m, p)
+            .unwrap()
+            .term_distribution(k)
+            .unwrap();
         let mf = m as f64;
         assert_eq!(
             d,
@@ -89,7 +119,10 @@ fn term_laws_reduce_to_the_chart_laws_for_one_variable() {
                 d2: mf - 3.0
             }
         );
-        assert!(ControlLimit::individuals_phase_two(m, p).unwrap().term_distribution(p).is_err());
+        assert!(ControlLimit::individuals_phase_two(m, p)
+            .unwrap()
+            .term_distribution(p)
+            .is_err());
     }
 }
 
@@ -156,7 +189,11 @@ fn every_ordering_of_four_variables_sums_to_t_squared() {
                         continue;
                     }
                     count += 1;
-                    let sum: f64 = terms_along(&s, &c, &order).unwrap().iter().map(|t| t.value).sum();
+                    let sum: f64 = terms_along(&s, &c, &order)
+                        .unwrap()
+                        .iter()
+                        .map(|t| t.value)
+                        .sum();
                     assert!((sum - t2).abs() < 1e-11 * t2);
                 }
             }
@@ -190,7 +227,11 @@ fn two_variable_terms_equal_the_published_formulas() {
     };
     let terms = conditional_terms(&s, &[c1, c2], 1).unwrap();
     let get = |j: usize, given: &[usize]| {
-        terms.iter().find(|t| t.variable == j && t.given == given).unwrap().value
+        terms
+            .iter()
+            .find(|t| t.variable == j && t.given == given)
+            .unwrap()
+            .value
     };
     assert!(rel(get(0, &[]), t1) < 1e-14);
     assert!(rel(get(1, &[]), t2) < 1e-14);
@@ -243,7 +284,10 @@ fn phase_one_removes_signals_until_clean_and_respects_the_cap() {
     for pt in chart.phase_one_points() {
         if pt.status == PointStatus::InEstimate {
             assert!(!pt.signal);
-            assert_eq!(pt.upper_limit, chart.upper_limit(PointOrigin::InEstimate).unwrap());
+            assert_eq!(
+                pt.upper_limit,
+                chart.upper_limit(PointOrigin::InEstimate).unwrap()
+            );
         }
     }
     assert_eq!(chart.in_estimate(), last.in_estimate);
@@ -286,7 +330,10 @@ fn a_supplied_start_model_screens_gross_outliers() {
     let clean = process(&mut rng, 200, 2);
     let model = DistanceModel::fit(clean.view()).unwrap();
     let settings = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith { model, origin: RowOrigin::New },
+        start: PhaseOneStart::ScreenWith {
+            model,
+            origin: RowOrigin::New,
+        },
         ..PhaseOneSettings::default()
     };
     let chart = ControlChart::individuals(x.view(), &settings).unwrap();
@@ -299,7 +346,10 @@ fn a_supplied_start_model_screens_gross_outliers() {
     assert_eq!(chart.in_estimate(), 34);
     let wrong = DistanceModel::fit(process(&mut rng, 30, 3).view()).unwrap();
     let bad = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith { model: wrong, origin: RowOrigin::New },
+        start: PhaseOneStart::ScreenWith {
+            model: wrong,
+            origin: RowOrigin::New,
+        },
         ..PhaseOneSettings::default()
     };
     assert!(matches!(
@@ -324,12 +374,18 @@ fn subgroup_chart_uses_subgroup_means_and_the_pooled_scatter() {
     let groups = GroupMoments::from_rows(x.view(), &labels).unwrap();
     let sp = groups.pooled_scatter(Divisor::Unbiased).unwrap();
     let means: Vec<Vec<f64>> = groups.groups().iter().map(|g| g.mean().to_vec()).collect();
-    let grand: Vec<f64> = (0..p).map(|j| means.iter().map(|v| v[j]).sum::<f64>() / m as f64).collect();
+    let grand: Vec<f64> = (0..p)
+        .map(|j| means.iter().map(|v| v[j]).sum::<f64>() / m as f64)
+        .collect();
     for (k, pt) in chart.phase_one_points().iter().enumerate() {
         let d: Vec<f64> = (0..p).map(|j| means[k][j] - grand[j]).collect();
         let y = sp.solve(&d).unwrap();
         let t2 = n as f64 * d.iter().zip(&y).map(|(a, b)| a * b).sum::<f64>();
-        assert!(rel(pt.t_squared, t2) < 1e-10, "{k}: {} vs {t2}", pt.t_squared);
+        assert!(
+            rel(pt.t_squared, t2) < 1e-10,
+            "{k}: {} vs {t2}",
+            pt.t_squared
+        );
     }
     assert!(chart.phase_one_points()[10].signal);
     let d = chart.phase_one_points()[10].diagnosis.as_ref().unwrap();
@@ -353,13 +409,26 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
     let x = process(&mut rng, 50, 4);
     let chart = ControlChart::individuals(x.view(), &PhaseOneSettings::default()).unwrap();
     let point = [0.5, 2.5, -1.0, 0.3];
-    let terms = chart.decompose_along(&point, &[3, 1, 0, 2], PointOrigin::New).unwrap();
-    let c: Vec<f64> = point.iter().zip(chart.location()).map(|(a, b)| a - b).collect();
+    let terms = chart
+        .decompose_along(&point, &[3, 1, 0, 2], PointOrigin::New)
+        .unwrap();
+    let c: Vec<f64> = point
+        .iter()
+        .zip(chart.location())
+        .map(|(a, b)| a - b)
+        .collect();
     let t2 = chart.point_scatter().squared_norm(&c).unwrap();
     assert!((terms.iter().map(|t| t.value).sum::<f64>() - t2).abs() < 1e-10 * t2);
     for (k, t) in terms.iter().enumerate() {
-        let law = chart.limit(PointOrigin::New).unwrap().term_distribution(k).unwrap();
-        assert_eq!(t.cutoff, law.cutoff(FalseAlarmRate::default().alpha()).unwrap());
+        let law = chart
+            .limit(PointOrigin::New)
+            .unwrap()
+            .term_distribution(k)
+            .unwrap();
+        assert_eq!(
+            t.cutoff,
+            law.cutoff(FalseAlarmRate::default().alpha()).unwrap()
+        );
         assert_eq!(t.p_value, law.p_value(t.value));
     }
     let d = chart.diagnose(&point, PointOrigin::New, 3).unwrap();
@@ -376,7 +445,11 @@ fn chart_errors_are_typed() {
     let x = array![[1.0, 2.0], [2.0, 1.0], [0.5, 0.7]];
     assert!(matches!(
         ControlChart::individuals(x.view(), &settings),
-        Err(Error::TooFewRows { rows: 3, needed: 4, columns: 2 })
+        Err(Error::TooFewRows {
+            rows: 3,
+            needed: 4,
+            columns: 2
+        })
     ));
     // Singular scatter.
     let y = array![[1.0, 2.0], [2.0, 4.0], [3.0, 6.0], [4.0, 8.0], [5.0, 10.0]];
@@ -393,34 +466,63 @@ fn chart_errors_are_typed() {
     let ok = ControlChart::individuals(w.view(), &settings).unwrap();
     assert!(matches!(
         ok.monitor(array![[1.0, 2.0, 3.0]].view()),
-        Err(Error::ShapeMismatch { expected: 2, found: 3, .. })
+        Err(Error::ShapeMismatch {
+            expected: 2,
+            found: 3,
+            ..
+        })
     ));
     assert!(matches!(
         ok.monitor(array![[1.0, f64::NAN]].view()),
-        Err(Error::NonFinite { row: 0, column: 1, .. })
+        Err(Error::NonFinite {
+            row: 0,
+            column: 1,
+            ..
+        })
     ));
-    assert!(matches!(ok.diagnose(&[1.0], PointOrigin::New, 1), Err(Error::ShapeMismatch { .. })));
-    assert!(ok.decompose_along(&[1.0, 2.0], &[0, 0], PointOrigin::New).is_err());
+    assert!(matches!(
+        ok.diagnose(&[1.0], PointOrigin::New, 1),
+        Err(Error::ShapeMismatch { .. })
+    ));
+    assert!(ok
+        .decompose_along(&[1.0, 2.0], &[0, 0], PointOrigin::New)
+        .is_err());
     w[(3, 1)] = f64::INFINITY;
     assert!(matches!(
         ControlChart::individuals(w.view(), &settings),
-        Err(Error::NonFinite { row: 3, column: 1, .. })
+        Err(Error::NonFinite {
+            row: 3,
+            column: 1,
+            ..
+        })
     ));
     // Subgroups: size at least 2, whole subgroups, enough within-subgroup
     // degrees of freedom, no screening start.
     let v = process(&mut Rng(1), 12, 3);
-    assert!(matches!(ControlChart::subgroups(v.view(), 1, &settings), Err(Error::InvalidParameter { .. })));
-    assert!(matches!(ControlChart::subgroups(v.view(), 5, &settings), Err(Error::ShapeMismatch { .. })));
+    assert!(matches!(
+        ControlChart::subgroups(v.view(), 1, &settings),
+        Err(Error::InvalidParameter { .. })
+    ));
+    assert!(matches!(
+        ControlChart::subgroups(v.view(), 5, &settings),
+        Err(Error::ShapeMismatch { .. })
+    ));
     assert!(matches!(
         ControlChart::subgroups(v.view().slice(ndarray::s![0..4, ..]), 2, &settings),
         Err(Error::TooFewRows { .. })
     ));
     let model = DistanceModel::fit(v.view()).unwrap();
     let screen = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith { model, origin: RowOrigin::KnownParameters },
+        start: PhaseOneStart::ScreenWith {
+            model,
+            origin: RowOrigin::KnownParameters,
+        },
         ..PhaseOneSettings::default()
     };
-    assert!(matches!(ControlChart::subgroups(v.view(), 3, &screen), Err(Error::InvalidParameter { .. })));
+    assert!(matches!(
+        ControlChart::subgroups(v.view(), 3, &screen),
+        Err(Error::InvalidParameter { .. })
+    ));
     // Limits and rates.
     assert!(ControlLimit::individuals_phase_two(3, 3).is_err());
     assert!(ControlLimit::subgroups_phase_one(1, 5, 2).is_err());
@@ -442,7 +544,10 @@ fn in_control_false_alarm_rates_match_alpha() {
     let reps = 200_000usize;
     let alpha = 0.01;
     let rate = FalseAlarmRate::per_point(alpha).unwrap();
-    let settings = PhaseOneSettings { false_alarm: rate, ..PhaseOneSettings::default() };
+    let settings = PhaseOneSettings {
+        false_alarm: rate,
+        ..PhaseOneSettings::default()
+    };
     let (m, p) = (30, 3);
     let mut phase2 = 0usize;
     let mut phase1 = 0usize;
@@ -457,7 +562,9 @@ fn in_control_false_alarm_rates_match_alpha() {
         // Decomposition terms of the new point (rates reported, the
         // unconditional one checked: its law is exact).
         let row: Vec<f64> = x.row(m).to_vec();
-        let terms = chart.decompose_along(&row, &[0, 1, 2], PointOrigin::New).unwrap();
+        let terms = chart
+            .decompose_along(&row, &[0, 1, 2], PointOrigin::New)
+            .unwrap();
         unconditional += usize::from(terms[0].exceeds());
         conditional += usize::from(terms[2].exceeds());
     }
@@ -476,8 +583,12 @@ fn in_control_false_alarm_rates_match_alpha() {
     let mut sub = 0usize;
     for _ in 0..reps_sub {
         let x = process(&mut rng, (groups + 1) * size, p);
-        let chart = ControlChart::subgroups(x.slice(ndarray::s![0..groups * size, ..]), size, &settings).unwrap();
-        let pt = chart.monitor(x.slice(ndarray::s![groups * size.., ..])).unwrap();
+        let chart =
+            ControlChart::subgroups(x.slice(ndarray::s![0..groups * size, ..]), size, &settings)
+                .unwrap();
+        let pt = chart
+            .monitor(x.slice(ndarray::s![groups * size.., ..]))
+            .unwrap();
         sub += usize::from(pt[0].signal);
     }
     let se_sub = (alpha * (1.0 - alpha) / reps_sub as f64).sqrt();

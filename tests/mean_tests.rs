@@ -16,16 +16,31 @@ use serde_json::Value;
 
 fn check(name: &str, got: &MeanComparison, want: &Value, p_tol: f64) {
     let t2 = want["t2"].as_f64().unwrap();
-    assert!(rel(got.t_squared(), t2) < 1e-11, "{name}: T² {} vs {t2}", got.t_squared());
+    assert!(
+        rel(got.t_squared(), t2) < 1e-11,
+        "{name}: T² {} vs {t2}",
+        got.t_squared()
+    );
     let f = want["f"].as_f64().unwrap();
     assert!(rel(got.f_statistic(), f) < 1e-11, "{name}: F");
     assert!(rel(got.numerator_dof(), want["df1"].as_f64().unwrap()) < 1e-14);
     let df2 = want["df2"].as_f64().unwrap();
-    assert!(rel(got.denominator_dof(), df2) < 1e-11, "{name}: df2 {} vs {df2}", got.denominator_dof());
+    assert!(
+        rel(got.denominator_dof(), df2) < 1e-11,
+        "{name}: df2 {} vs {df2}",
+        got.denominator_dof()
+    );
     let p = want["p_value"].as_f64().unwrap();
-    assert!(rel(got.p_value(), p) < p_tol, "{name}: p {} vs {p}", got.p_value());
+    assert!(
+        rel(got.p_value(), p) < p_tol,
+        "{name}: p {} vs {p}",
+        got.p_value()
+    );
     for (a, b) in got.estimate().iter().zip(vector(&want["estimate"])) {
-        assert!(rel(*a, b) < 1e-12 || (a - b).abs() < 1e-13, "{name}: estimate");
+        assert!(
+            rel(*a, b) < 1e-12 || (a - b).abs() < 1e-13,
+            "{name}: estimate"
+        );
     }
     let alpha = want["intervals_alpha"].as_f64().unwrap();
     let ivs = got.intervals(alpha).unwrap();
@@ -39,9 +54,15 @@ fn check(name: &str, got: &MeanComparison, want: &Value, p_tol: f64) {
             (iv.bonferroni.lower, b[0]),
             (iv.bonferroni.upper, b[1]),
         ] {
-            assert!((g - e).abs() < 1e-10 * scale.max(e.abs()), "{name}: interval {g} vs {e}");
+            assert!(
+                (g - e).abs() < 1e-10 * scale.max(e.abs()),
+                "{name}: interval {g} vs {e}"
+            );
         }
-        assert!(iv.bonferroni.upper - iv.bonferroni.lower < iv.simultaneous.upper - iv.simultaneous.lower);
+        assert!(
+            iv.bonferroni.upper - iv.bonferroni.lower
+                < iv.simultaneous.upper - iv.simultaneous.lower
+        );
     }
 }
 
@@ -72,7 +93,10 @@ fn two_sample_pooled_matches_numpy_scipy() {
 fn unequal_scatter_matches_the_krishnamoorthy_yu_formulas() {
     // Reference: the paper's formulas evaluated with numpy (explicit inverse).
     let f = fixture("mean_tests.json");
-    for name in ["wine_1_vs_2_unequal", "iris_setosa_first30_vs_versicolor_unequal"] {
+    for name in [
+        "wine_1_vs_2_unequal",
+        "iris_setosa_first30_vs_versicolor_unequal",
+    ] {
         let c = &f["cases"][name];
         let test =
             two_sample_unequal_scatter(matrix(&c["a"]).view(), matrix(&c["b"]).view()).unwrap();
@@ -105,7 +129,10 @@ fn paired_matches_numpy_and_equals_one_sample_on_differences() {
     let direct = one_sample(diff.view(), &[0.0; 3]).unwrap();
     assert_eq!(direct.t_squared(), test.t_squared());
     assert_eq!(direct.p_value(), test.p_value());
-    assert_eq!(direct.intervals(0.05).unwrap(), test.intervals(0.05).unwrap());
+    assert_eq!(
+        direct.intervals(0.05).unwrap(),
+        test.intervals(0.05).unwrap()
+    );
 }
 
 #[test]
@@ -129,7 +156,10 @@ fn box_m_matches_numpy_and_the_known_iris_value() {
     assert!(rel(fa.statistic, want["f"].as_f64().unwrap()) < 1e-10);
     assert!(rel(fa.denominator_dof, want["f_df2"].as_f64().unwrap()) < 1e-10);
     assert!(rel(fa.p_value, want["f_p"].as_f64().unwrap()) < 1e-8);
-    assert_eq!(m.suggested_rule(0.001).unwrap(), ClassificationRule::Quadratic);
+    assert_eq!(
+        m.suggested_rule(0.001).unwrap(),
+        ClassificationRule::Quadratic
+    );
 
     let wine = &f["box_m"]["wine_cultivars"];
     let wc: Vec<Array2<f64>> = ["wine_0_vs_1_pooled", "wine_1_vs_2_unequal"]
@@ -158,11 +188,19 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
     // One sample: n = p is too few.
     assert!(matches!(
         one_sample(three.view(), &[0.0; 3]),
-        Err(Error::TooFewRows { rows: 3, needed: 4, columns: 3 })
+        Err(Error::TooFewRows {
+            rows: 3,
+            needed: 4,
+            columns: 3
+        })
     ));
     assert!(matches!(
         one_sample(three.view(), &[0.0; 2]),
-        Err(Error::ShapeMismatch { expected: 3, found: 2, .. })
+        Err(Error::ShapeMismatch {
+            expected: 3,
+            found: 2,
+            ..
+        })
     ));
     // Two samples: n₁ + n₂ must reach p + 2.
     let two = array![[1.0, 2.0, 3.0], [2.0, 1.0, 0.0]];
@@ -176,9 +214,22 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
         Err(Error::ShapeMismatch { .. })
     ));
     // Singular pooled scatter: the third column is constant in both samples.
-    let a = array![[1.0, 2.0, 5.0], [2.0, 1.0, 5.0], [0.5, 0.2, 5.0], [3.0, 1.0, 5.0]];
-    let b = array![[1.5, 2.5, 5.0], [2.5, 1.5, 5.0], [0.7, 0.1, 5.0], [3.2, 1.4, 5.0]];
-    assert!(matches!(two_sample(a.view(), b.view()), Err(Error::ZeroVariance { column: 2 })));
+    let a = array![
+        [1.0, 2.0, 5.0],
+        [2.0, 1.0, 5.0],
+        [0.5, 0.2, 5.0],
+        [3.0, 1.0, 5.0]
+    ];
+    let b = array![
+        [1.5, 2.5, 5.0],
+        [2.5, 1.5, 5.0],
+        [0.7, 0.1, 5.0],
+        [3.2, 1.4, 5.0]
+    ];
+    assert!(matches!(
+        two_sample(a.view(), b.view()),
+        Err(Error::ZeroVariance { column: 2 })
+    ));
     assert!(matches!(
         two_sample_unequal_scatter(a.view(), b.view()),
         Err(Error::ZeroVariance { column: 2 })
@@ -198,7 +249,14 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
     // Unequal scatter: each sample needs p + 1 rows; the error names the sample.
     match two_sample_unequal_scatter(a.view(), three.view()) {
         Err(Error::InGroup { group: 1, error }) => {
-            assert!(matches!(*error, Error::TooFewRows { rows: 3, needed: 4, .. }))
+            assert!(matches!(
+                *error,
+                Error::TooFewRows {
+                    rows: 3,
+                    needed: 4,
+                    ..
+                }
+            ))
         }
         other => panic!("{other:?}"),
     }
@@ -207,14 +265,25 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
     bad[(2, 1)] = f64::NAN;
     match two_sample(a.view(), bad.view()) {
         Err(Error::InGroup { group: 1, error }) => {
-            assert!(matches!(*error, Error::NonFinite { row: 2, column: 1, .. }))
+            assert!(matches!(
+                *error,
+                Error::NonFinite {
+                    row: 2,
+                    column: 1,
+                    ..
+                }
+            ))
         }
         other => panic!("{other:?}"),
     }
     // Paired: rows must match.
     assert!(matches!(
         paired(a.view(), three.view()),
-        Err(Error::ShapeMismatch { expected: 4, found: 3, .. })
+        Err(Error::ShapeMismatch {
+            expected: 4,
+            found: 3,
+            ..
+        })
     ));
     // Box's M: groups need p + 1 rows each, and two groups at least.
     match scatter_equality(&[a.view(), three.view()]) {
@@ -223,7 +292,10 @@ fn typed_errors_for_too_few_rows_singular_scatter_and_mismatched_shapes() {
         }
         other => panic!("{other:?}"),
     }
-    assert!(matches!(scatter_equality(&[a.view()]), Err(Error::InvalidParameter { .. })));
+    assert!(matches!(
+        scatter_equality(&[a.view()]),
+        Err(Error::InvalidParameter { .. })
+    ));
     let ok = array![[1.0, 2.0], [2.0, 1.0], [0.5, 0.2], [3.0, 1.0]];
     match scatter_equality(&[ok.view(), array![[1.0, 2.0], [0.0, 1.0]].view()]) {
         Err(Error::InGroup { group: 1, error }) => {
@@ -262,17 +334,42 @@ fn unequal_scatter_test_holds_its_size() {
     // per setting from our seeded generator. Nominal level 0.05; the size
     // must stay within [0.025, 0.075].
     let settings: [(usize, usize, usize, Vec<f64>, Vec<f64>); 3] = [
-        (3, 15, 40, vec![1.0, 0.0, 0.0, 0.5, 1.0, 0.0, 0.2, 0.3, 1.0], vec![2.0, 0.0, 0.0, -1.2, 1.6, 0.0, 0.4, 0.8, 1.7]),
-        (2, 40, 12, vec![1.0, 0.0, 0.9, 0.4], vec![3.0, 0.0, -1.5, 2.5]),
-        (5, 20, 60, {
-            let mut l = vec![0.0; 25];
-            for i in 0..5 { l[i * 5 + i] = 1.0; if i > 0 { l[i * 5 + i - 1] = 0.6; } }
-            l
-        }, {
-            let mut l = vec![0.0; 25];
-            for i in 0..5 { l[i * 5 + i] = 0.5 + i as f64; }
-            l
-        }),
+        (
+            3,
+            15,
+            40,
+            vec![1.0, 0.0, 0.0, 0.5, 1.0, 0.0, 0.2, 0.3, 1.0],
+            vec![2.0, 0.0, 0.0, -1.2, 1.6, 0.0, 0.4, 0.8, 1.7],
+        ),
+        (
+            2,
+            40,
+            12,
+            vec![1.0, 0.0, 0.9, 0.4],
+            vec![3.0, 0.0, -1.5, 2.5],
+        ),
+        (
+            5,
+            20,
+            60,
+            {
+                let mut l = vec![0.0; 25];
+                for i in 0..5 {
+                    l[i * 5 + i] = 1.0;
+                    if i > 0 {
+                        l[i * 5 + i - 1] = 0.6;
+                    }
+                }
+                l
+            },
+            {
+                let mut l = vec![0.0; 25];
+                for i in 0..5 {
+                    l[i * 5 + i] = 0.5 + i as f64;
+                }
+                l
+            },
+        ),
     ];
     let mut rng = Rng(20_261_202);
     for (p, n1, n2, l1, l2) in settings {
@@ -283,7 +380,11 @@ fn unequal_scatter_test_holds_its_size() {
         for _ in 0..reps {
             let a = sample(&mut rng, n1, &mu, &l1);
             let b = sample(&mut rng, n2, &mu, &l2);
-            if two_sample_unequal_scatter(a.view(), b.view()).unwrap().p_value() <= 0.05 {
+            if two_sample_unequal_scatter(a.view(), b.view())
+                .unwrap()
+                .p_value()
+                <= 0.05
+            {
                 rejections += 1;
             }
             if two_sample(a.view(), b.view()).unwrap().p_value() <= 0.05 {
@@ -292,7 +393,9 @@ fn unequal_scatter_test_holds_its_size() {
         }
         let size = rejections as f64 / reps as f64;
         let pooled = pooled_rejections as f64 / reps as f64;
-        eprintln!("p={p} n=({n1},{n2}): unequal-scatter size {size:.4}, pooled-test size {pooled:.4}");
+        eprintln!(
+            "p={p} n=({n1},{n2}): unequal-scatter size {size:.4}, pooled-test size {pooled:.4}"
+        );
         assert!((0.025..=0.075).contains(&size), "size {size}");
     }
 }

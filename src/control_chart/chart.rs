@@ -166,15 +166,16 @@ fn subgroup_means(
     let mut means = Array2::zeros((m, p));
     let mut groups = Vec::with_capacity(m);
     for k in 0..m {
-        let acc = MomentAccumulator::from_rows(rows.slice(ndarray::s![k * size..(k + 1) * size, ..]))
-            .map_err(|e| match e {
-                Error::NonFinite { row, column, value } => Error::NonFinite {
-                    row: row + k * size,
-                    column,
-                    value,
-                },
-                other => other,
-            })?;
+        let acc =
+            MomentAccumulator::from_rows(rows.slice(ndarray::s![k * size..(k + 1) * size, ..]))
+                .map_err(|e| match e {
+                    Error::NonFinite { row, column, value } => Error::NonFinite {
+                        row: row + k * size,
+                        column,
+                        value,
+                    },
+                    other => other,
+                })?;
         for (d, v) in means.row_mut(k).iter_mut().zip(acc.mean()) {
             *d = *v;
         }
@@ -478,7 +479,9 @@ impl ControlChart {
             (ChartDesign::Individuals, PointOrigin::InEstimate) => {
                 ControlLimit::individuals_phase_one(m, p)
             }
-            (ChartDesign::Individuals, PointOrigin::New) => ControlLimit::individuals_phase_two(m, p),
+            (ChartDesign::Individuals, PointOrigin::New) => {
+                ControlLimit::individuals_phase_two(m, p)
+            }
             (ChartDesign::Subgroups { size }, PointOrigin::InEstimate) => {
                 ControlLimit::subgroups_phase_one(m, size, p)
             }

@@ -174,9 +174,9 @@ pub(crate) fn diagnose_centred(
     let t_squared = scatter.squared_norm(centred)?;
     let mut terms = rate_terms(conditional_terms(scatter, centred, depth)?, limit, rate)?;
     terms.sort_by(|a, b| {
-        a.p_value.total_cmp(&b.p_value).then_with(|| {
-            (b.value / b.cutoff).total_cmp(&(a.value / a.cutoff))
-        })
+        a.p_value
+            .total_cmp(&b.p_value)
+            .then_with(|| (b.value / b.cutoff).total_cmp(&(a.value / a.cutoff)))
     });
     Ok(SignalDiagnosis {
         t_squared,

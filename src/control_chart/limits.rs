@@ -265,22 +265,46 @@ impl ControlLimit {
             | (IndividualsPhaseTwo { observations, dim }, PointOrigin::InEstimate) => {
                 IndividualsPhaseOne { observations, dim }
             }
-            (SubgroupsPhaseOne { subgroups, size, dim }, PointOrigin::New)
-            | (SubgroupsPhaseTwo { subgroups, size, dim }, PointOrigin::New) => {
-                SubgroupsPhaseTwo {
-                    subgroups,
-                    size,
-                    dim,
-                }
-            }
-            (SubgroupsPhaseOne { subgroups, size, dim }, PointOrigin::InEstimate)
-            | (SubgroupsPhaseTwo { subgroups, size, dim }, PointOrigin::InEstimate) => {
+            (
                 SubgroupsPhaseOne {
                     subgroups,
                     size,
                     dim,
-                }
-            }
+                },
+                PointOrigin::New,
+            )
+            | (
+                SubgroupsPhaseTwo {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::New,
+            ) => SubgroupsPhaseTwo {
+                subgroups,
+                size,
+                dim,
+            },
+            (
+                SubgroupsPhaseOne {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::InEstimate,
+            )
+            | (
+                SubgroupsPhaseTwo {
+                    subgroups,
+                    size,
+                    dim,
+                },
+                PointOrigin::InEstimate,
+            ) => SubgroupsPhaseOne {
+                subgroups,
+                size,
+                dim,
+            },
         }
     }
 
@@ -385,7 +409,9 @@ impl ControlLimit {
                 if size < 2 {
                     return Err(Error::invalid(
                         "subgroup size",
-                        format!("{size}; subgroups need at least 2 rows for a within-subgroup scatter"),
+                        format!(
+                            "{size}; subgroups need at least 2 rows for a within-subgroup scatter"
+                        ),
                     ));
                 }
                 let min_groups = if phase_one { 2 } else { 1 };

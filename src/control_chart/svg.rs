@@ -56,13 +56,20 @@ impl Axis {
         } else {
             (v - self.lo) / (self.hi - self.lo)
         };
-        let frac = if frac.is_finite() { frac.clamp(0.0, 1.0) } else { 0.0 };
+        let frac = if frac.is_finite() {
+            frac.clamp(0.0, 1.0)
+        } else {
+            0.0
+        };
         HEIGHT - BOTTOM - frac * (HEIGHT - TOP - BOTTOM)
     }
 
     fn ticks(&self) -> Vec<f64> {
         if self.log {
-            let (a, b) = (self.lo.log10().round() as i32, self.hi.log10().round() as i32);
+            let (a, b) = (
+                self.lo.log10().round() as i32,
+                self.hi.log10().round() as i32,
+            );
             let stride = ((b - a) / 6).max(1);
             (a..=b)
                 .step_by(stride as usize)

@@ -196,8 +196,8 @@ pub fn scatter_equality(groups: &[ArrayView2<'_, f64>]) -> Result<ScatterEqualit
     let (pf, gf) = (p as f64, g as f64);
     let c1 = (sum_inv - 1.0 / nu_total) * (2.0 * pf * pf + 3.0 * pf - 1.0)
         / (6.0 * (pf + 1.0) * (gf - 1.0));
-    let c2 = (sum_inv_sq - 1.0 / (nu_total * nu_total)) * (pf - 1.0) * (pf + 2.0)
-        / (6.0 * (gf - 1.0));
+    let c2 =
+        (sum_inv_sq - 1.0 / (nu_total * nu_total)) * (pf - 1.0) * (pf + 2.0) / (6.0 * (gf - 1.0));
     let df1 = pf * (pf + 1.0) * (gf - 1.0) / 2.0;
     let chi_stat = (1.0 - c1) * statistic;
     let chi_square = ChiSquareApproximation {

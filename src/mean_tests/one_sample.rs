@@ -64,7 +64,11 @@ pub(crate) fn one_sample_of_kind(
         kind,
         estimate: acc.mean().to_vec(),
         hypothesized: target.to_vec(),
-        standard_errors: scatter.variances().iter().map(|v| (v / nf).sqrt()).collect(),
+        standard_errors: scatter
+            .variances()
+            .iter()
+            .map(|v| (v / nf).sqrt())
+            .collect(),
         sample_sizes: vec![n],
         t_squared,
         t_squared_per_f: pf * (nf - 1.0) / (nf - pf),

@@ -71,7 +71,10 @@ pub fn two_sample_unequal_scatter(
     second: ArrayView2<'_, f64>,
 ) -> Result<MeanComparison> {
     same_columns(first, second)?;
-    let accs = [sample_moments(first, Some(0))?, sample_moments(second, Some(1))?];
+    let accs = [
+        sample_moments(first, Some(0))?,
+        sample_moments(second, Some(1))?,
+    ];
     let p = first.ncols();
     let pf = p as f64;
     let mut parts: Vec<Vec<f64>> = Vec::with_capacity(2);
@@ -85,7 +88,9 @@ pub fn two_sample_unequal_scatter(
                 columns: p,
             }));
         }
-        let cov = acc.covariance(Divisor::Unbiased).map_err(Error::in_group(g))?;
+        let cov = acc
+            .covariance(Divisor::Unbiased)
+            .map_err(Error::in_group(g))?;
         parts.push(cov.iter().map(|v| v / n as f64).collect());
         sizes.push(n);
     }

@@ -99,21 +99,31 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     }
     if args.subgroup_size.is_some() && args.start_model.is_some() {
         return Err(CliError(
-            "--start-model screens individual observations; it cannot be used with --subgroup-size".into(),
+            "--start-model screens individual observations; it cannot be used with --subgroup-size"
+                .into(),
         ));
     }
     let history = read_table(&args.data, &args.columns, args.skip_incomplete)?;
     if history.skipped > 0 {
-        eprintln!("mvdist: skipped {} incomplete row(s) of {}", history.skipped, args.data.display());
+        eprintln!(
+            "mvdist: skipped {} incomplete row(s) of {}",
+            history.skipped,
+            args.data.display()
+        );
     }
     let names = history.names.clone();
     let p = names.len();
     let start = match &args.start_model {
         None => PhaseOneStart::AllRows,
         Some(path) => {
-            let text = std::fs::read_to_string(path)
-                .map_err(|e| CliError(format!("{}: cannot read the model file: {e}", path.display())))?;
-            let file = ModelFile::from_json(&text).map_err(|e| CliError(format!("{}: {e}", path.display())))?;
+            let text = std::fs::read_to_string(path).map_err(|e| {
+                CliError(format!(
+                    "{}: cannot read the model file: {e}",
+                    path.display()
+                ))
+            })?;
+            let file = ModelFile::from_json(&text)
+                .map_err(|e| CliError(format!("{}: {e}", path.display())))?;
             if file.variables() != names.as_slice() {
                 return Err(CliError(format!(
                     "{}: the start model's variables ({}) are not the chart's ({})",
@@ -134,7 +144,9 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let settings = PhaseOneSettings {
         false_alarm: rate,
         removal: if args.remove_signals {
-            SignalRemoval::RefitUntilClean { max_rounds: args.max_rounds }
+            SignalRemoval::RefitUntilClean {
+                max_rounds: args.max_rounds,
+            }
         } else {
             SignalRemoval::Keep
         },
@@ -159,9 +171,18 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let (new_points, new_labels) = match &args.new {
         None => (Vec::new(), Vec::new()),
         Some(path) => {
-            let t = read_table_named(path, &names, args.columns.label.as_deref(), args.skip_incomplete)?;
+            let t = read_table_named(
+                path,
+                &names,
+                args.columns.label.as_deref(),
+                args.skip_incomplete,
+            )?;
             if t.skipped > 0 {
-                eprintln!("mvdist: skipped {} incomplete row(s) of {}", t.skipped, path.display());
+                eprintln!(
+                    "mvdist: skipped {} incomplete row(s) of {}",
+                    t.skipped,
+                    path.display()
+                );
             }
             let pts = chart
                 .monitor(mvdist::data::rows_from_slice(&t.data, p)?)
@@ -186,16 +207,32 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         header.push("label");
     }
     header.extend([
-        "status", "t2", "ucl", "p_value", "signal", "top_term", "top_term_value",
-        "top_term_cutoff", "terms_over_cutoff", "out_of_range", "broken_relationships",
-        "top_variable", "top_share",
+        "status",
+        "t2",
+        "ucl",
+        "p_value",
+        "signal",
+        "top_term",
+        "top_term_value",
+        "top_term_cutoff",
+        "terms_over_cutoff",
+        "out_of_range",
+        "broken_relationships",
+        "top_variable",
+        "top_share",
     ]);
     writeln!(out.writer(), "{}", header.join(",")).map_err(io)?;
-    for (phase, points, labels) in [(1, chart.phase_one_points(), &history.labels), (2, new_points.as_slice(), &new_labels)] {
+    for (phase, points, labels) in [
+        (1, chart.phase_one_points(), &history.labels),
+        (2, new_points.as_slice(), &new_labels),
+    ] {
         for pt in points {
             let first = pt.index * size + 1;
             let label = if args.columns.label.is_some() {
-                format!(",{}", csv_field(labels.get(pt.index * size).map_or("", |s| s.as_str())))
+                format!(
+                    ",{}",
+                    csv_field(labels.get(pt.index * size).map_or("", |s| s.as_str()))
+                )
             } else {
                 String::new()
             };
@@ -208,7 +245,11 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                         0.0
                     };
                     let list = |terms: Vec<&mvdist::control_chart::RatedTerm>| {
-                        terms.iter().map(|t| t.label(&names)).collect::<Vec<_>>().join("; ")
+                        terms
+                            .iter()
+                            .map(|t| t.label(&names))
+                            .collect::<Vec<_>>()
+                            .join("; ")
                     };
                     format!(
                         "{},{},{},{},{},{},{},{share:.4}",
@@ -240,15 +281,33 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     out.finish()?;
     if let Some(svg) = &args.svg {
         let title = args.title.clone().unwrap_or_else(|| {
-            format!("T² chart: {} ({})", args.data.file_name().map_or_else(String::new, |f| f.to_string_lossy().into_owned()), names.join(", "))
+            format!(
+                "T² chart: {} ({})",
+                args.data
+                    .file_name()
+                    .map_or_else(String::new, |f| f.to_string_lossy().into_owned()),
+                names.join(", ")
+            )
         });
         write_atomically(svg, &chart_svg(&chart, &new_points, &title)?)?;
     }
 
     // Summary.
-    let unit = if size > 1 { format!("subgroups of {size} rows") } else { "rows".to_string() };
-    let removed = chart.phase_one_points().iter().filter(|p| matches!(p.status, PointStatus::Removed { .. })).count();
-    let remaining = chart.phase_one_points().iter().filter(|p| p.status == PointStatus::InEstimate && p.signal).count();
+    let unit = if size > 1 {
+        format!("subgroups of {size} rows")
+    } else {
+        "rows".to_string()
+    };
+    let removed = chart
+        .phase_one_points()
+        .iter()
+        .filter(|p| matches!(p.status, PointStatus::Removed { .. }))
+        .count();
+    let remaining = chart
+        .phase_one_points()
+        .iter()
+        .filter(|p| p.status == PointStatus::InEstimate && p.signal)
+        .count();
     println!(
         "Phase I: {} {unit} × {p} variables ({}); false-alarm rate {} per point (ARL {:.0})",
         chart.phase_one_points().len(),
@@ -266,7 +325,10 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let phase_two_ucl = chart.upper_limit(PointOrigin::New)?;
     if args.new.is_some() {
         let signals = new_points.iter().filter(|p| p.signal).count();
-        println!("Phase II: {} new points, UCL = {phase_two_ucl:.4}: {signals} signal(s)", new_points.len());
+        println!(
+            "Phase II: {} new points, UCL = {phase_two_ucl:.4}: {signals} signal(s)",
+            new_points.len()
+        );
     } else {
         println!("  Phase II UCL for new points: {phase_two_ucl:.4}");
     }
@@ -281,7 +343,12 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         if let Some(d) = &pt.diagnosis {
             let top = d.terms.first();
             let range: Vec<String> = d.out_of_range().iter().map(|t| t.label(&names)).collect();
-            let broken: Vec<String> = d.broken_relationships().iter().take(3).map(|t| t.label(&names)).collect();
+            let broken: Vec<String> = d
+                .broken_relationships()
+                .iter()
+                .take(3)
+                .map(|t| t.label(&names))
+                .collect();
             println!(
                 "  Phase {} point {}: T² = {:.3} > {:.3}; largest term {} = {:.3} (cutoff {:.3}); out of range: {}; broken relationships: {}",
                 if *phase == 1 { "I" } else { "II" },
@@ -297,12 +364,18 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         }
     }
     if signals.len() > 12 {
-        println!("  … {} more signal(s) in {}", signals.len() - 12, args.out.display());
+        println!(
+            "  … {} more signal(s) in {}",
+            signals.len() - 12,
+            args.out.display()
+        );
     }
     println!(
         "wrote {}{}",
         args.out.display(),
-        args.svg.as_ref().map_or_else(String::new, |s| format!(" and {}", s.display()))
+        args.svg
+            .as_ref()
+            .map_or_else(String::new, |s| format!(" and {}", s.display()))
     );
     println!("note: the limits assume independent, multivariate normal in-control data; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
     Ok(())

@@ -18,7 +18,12 @@ pub struct CompareMeansArgs {
     /// CSV file of the second sample; it must have the first file's variables.
     pub second: Option<PathBuf>,
     /// Target mean for a one-sample test, one value per variable, comma-separated.
-    #[arg(long, value_delimiter = ',', allow_hyphen_values = true, conflicts_with = "second")]
+    #[arg(
+        long,
+        value_delimiter = ',',
+        allow_hyphen_values = true,
+        conflicts_with = "second"
+    )]
     pub target: Option<Vec<f64>>,
     /// The two files hold paired measurements: row i of each is the same unit.
     #[arg(long, conflicts_with = "unequal_scatter")]
@@ -89,7 +94,10 @@ fn explain(args: &CompareMeansArgs, names: &[String], rows: usize, e: Error) -> 
 
 pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
     if !(args.alpha > 0.0 && args.alpha < 1.0) {
-        return Err(CliError(format!("--alpha {} is not between 0 and 1", args.alpha)));
+        return Err(CliError(format!(
+            "--alpha {} is not between 0 and 1",
+            args.alpha
+        )));
     }
     if args.second.is_none() && (args.paired || args.unequal_scatter) {
         return Err(CliError(
@@ -120,13 +128,23 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
                     a.names.join(", ")
                 )));
             }
-            let test = one_sample(rows_a, target).map_err(|e| explain(args, &a.names, a.rows, e))?;
+            let test =
+                one_sample(rows_a, target).map_err(|e| explain(args, &a.names, a.rows, e))?;
             (test, None)
         }
         Some(second) => {
-            let b = read_table_named(second, &a.names, args.columns.label.as_deref(), args.skip_incomplete)?;
+            let b = read_table_named(
+                second,
+                &a.names,
+                args.columns.label.as_deref(),
+                args.skip_incomplete,
+            )?;
             if b.skipped > 0 {
-                eprintln!("mvdist: skipped {} incomplete row(s) of {}", b.skipped, second.display());
+                eprintln!(
+                    "mvdist: skipped {} incomplete row(s) of {}",
+                    b.skipped,
+                    second.display()
+                );
             }
             files.push(second.display().to_string());
             let rows_b = mvdist::data::rows_from_slice(&b.data, p)?;
@@ -141,7 +159,8 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
                         b.rows
                     )));
                 }
-                let test = paired(rows_a, rows_b).map_err(|e| explain(args, &a.names, a.rows, e))?;
+                let test =
+                    paired(rows_a, rows_b).map_err(|e| explain(args, &a.names, a.rows, e))?;
                 (test, None)
             } else {
                 let test = if args.unequal_scatter {
@@ -171,7 +190,14 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
         println!("{}", serde_json::to_string_pretty(&report)?);
         return Ok(());
     }
-    print_table(args, &a.names, &test, &intervals, rejected, scatter.as_ref());
+    print_table(
+        args,
+        &a.names,
+        &test,
+        &intervals,
+        rejected,
+        scatter.as_ref(),
+    );
     Ok(())
 }
 
@@ -183,25 +209,38 @@ fn print_table(
     rejected: bool,
     scatter: Option<&ScatterEquality>,
 ) {
-    let second = args.second.as_ref().map_or_else(String::new, |p| p.display().to_string());
+    let second = args
+        .second
+        .as_ref()
+        .map_or_else(String::new, |p| p.display().to_string());
     let first = args.first.display().to_string();
     let sizes = test.sample_sizes();
     let (title, estimate) = match test.kind() {
-        MeanTestKind::OneSample => ("one sample against a target mean".to_string(), "mean".to_string()),
-        MeanTestKind::Paired => ("paired samples".to_string(), format!("mean of {first} − {second}, row by row")),
+        MeanTestKind::OneSample => (
+            "one sample against a target mean".to_string(),
+            "mean".to_string(),
+        ),
+        MeanTestKind::Paired => (
+            "paired samples".to_string(),
+            format!("mean of {first} − {second}, row by row"),
+        ),
         MeanTestKind::TwoSamplePooled => (
             "two independent samples, pooled scatter".to_string(),
             format!("mean of {first} − mean of {second}"),
         ),
         MeanTestKind::TwoSampleUnequalScatter => (
-            "two independent samples, unequal scatters (Krishnamoorthy–Yu approximation)".to_string(),
+            "two independent samples, unequal scatters (Krishnamoorthy–Yu approximation)"
+                .to_string(),
             format!("mean of {first} − mean of {second}"),
         ),
     };
     println!("Hotelling T² test: {title}");
     match sizes {
         [n] => println!("  {first}: {n} rows; {} variables", names.len()),
-        [n1, n2] => println!("  {first}: {n1} rows; {second}: {n2} rows; {} variables", names.len()),
+        [n1, n2] => println!(
+            "  {first}: {n1} rows; {second}: {n2} rows; {} variables",
+            names.len()
+        ),
         _ => {}
     }
     println!(
@@ -215,10 +254,19 @@ fn print_table(
     println!(
         "  at alpha = {}: {}",
         args.alpha,
-        if rejected { "the means differ (equality rejected)" } else { "no evidence that the means differ" }
+        if rejected {
+            "the means differ (equality rejected)"
+        } else {
+            "no evidence that the means differ"
+        }
     );
     let level = format!("{}%", trim(100.0 * (1.0 - args.alpha)));
-    let width = names.iter().map(|n| n.chars().count()).max().unwrap_or(8).max(8);
+    let width = names
+        .iter()
+        .map(|n| n.chars().count())
+        .max()
+        .unwrap_or(8)
+        .max(8);
     println!();
     println!(
         "  {:<width$}  {:>12}  {:>12}  {:>12}  {:>27}  {:>27}",
@@ -236,13 +284,18 @@ fn print_table(
             iv.estimate,
             h,
             iv.standard_error,
-            format!("[{:.6}, {:.6}]", iv.simultaneous.lower, iv.simultaneous.upper),
+            format!(
+                "[{:.6}, {:.6}]",
+                iv.simultaneous.lower, iv.simultaneous.upper
+            ),
             format!("[{:.6}, {:.6}]", iv.bonferroni.lower, iv.bonferroni.upper)
         );
     }
     println!("  estimate: {estimate}");
     if let Some(m) = scatter {
-        let rule = m.suggested_rule(0.001).unwrap_or(ClassificationRule::Linear);
+        let rule = m
+            .suggested_rule(0.001)
+            .unwrap_or(ClassificationRule::Linear);
         println!(
             "\nScatter equality (Box's M): M = {:.4}, χ² = {:.4} on {} dof, p = {:.3e}{}",
             m.statistic(),
