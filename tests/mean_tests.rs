@@ -345,7 +345,9 @@ fn unequal_scatter_test_holds_its_size() {
     // scatter is 4× larger with a different correlation), 20 000 replicates
     // per setting from our seeded generator. Nominal level 0.05; the size
     // must stay within [0.025, 0.075].
-    let settings: [(usize, usize, usize, Vec<f64>, Vec<f64>); 3] = [
+    // (p, n₁, n₂, Cholesky factor of Σ₁, of Σ₂), row-major.
+    type Setting = (usize, usize, usize, Vec<f64>, Vec<f64>);
+    let settings: [Setting; 3] = [
         (
             3,
             15,

@@ -64,12 +64,11 @@ pub fn term_count(p: usize, depth: usize) -> Option<usize> {
     if p == 0 {
         return Some(0);
     }
+    // C(p−1, k) = C(p−1, k−1) · (p − k) / k, exact at every step.
     let mut binomial: usize = 1;
-    let mut total: usize = 0;
-    for k in 0..=depth.min(p - 1) {
-        if k > 0 {
-            binomial = binomial.checked_mul(p - k)? / k;
-        }
+    let mut total: usize = 1;
+    for k in 1..=depth.min(p - 1) {
+        binomial = binomial.checked_mul(p - k)?.checked_div(k)?;
         total = total.checked_add(binomial)?;
     }
     total.checked_mul(p)

@@ -104,13 +104,6 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         ));
     }
     let history = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    if history.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            history.skipped,
-            args.data.display()
-        );
-    }
     let names = history.names.clone();
     let p = names.len();
     let start = match &args.start_model {
@@ -177,13 +170,6 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                 args.columns.label.as_deref(),
                 args.skip_incomplete,
             )?;
-            if t.skipped > 0 {
-                eprintln!(
-                    "mvdist: skipped {} incomplete row(s) of {}",
-                    t.skipped,
-                    path.display()
-                );
-            }
             let pts = chart
                 .monitor(mvdist::data::rows_from_slice(&t.data, p)?)
                 .map_err(|e| match e {

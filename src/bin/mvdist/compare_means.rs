@@ -1,7 +1,7 @@
 //! `mvdist compare-means`: Hotelling T² tests of mean vectors on CSV files.
 
 use crate::fit::explain_fit_error;
-use crate::table::{read_table, read_table_named, ColumnChoice, Table};
+use crate::table::{read_table, read_table_named, ColumnChoice};
 use crate::CliError;
 use mvdist::mean_tests::{
     one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter,
@@ -9,7 +9,7 @@ use mvdist::mean_tests::{
 };
 use mvdist::Error;
 use serde::Serialize;
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 #[derive(clap::Args)]
 pub struct CompareMeansArgs {
@@ -60,18 +60,6 @@ struct Report<'a> {
     caution: &'static str,
 }
 
-fn load(path: &Path, args: &CompareMeansArgs) -> Result<Table, CliError> {
-    let table = read_table(path, &args.columns, args.skip_incomplete)?;
-    if table.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            table.skipped,
-            path.display()
-        );
-    }
-    Ok(table)
-}
-
 /// A message naming files and columns for a library error.
 fn explain(args: &CompareMeansArgs, names: &[String], rows: usize, e: Error) -> CliError {
     match e {
@@ -109,7 +97,7 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
             "--skip-incomplete cannot be used with --paired: leaving out a row would misalign the pairs".into(),
         ));
     }
-    let a = load(&args.first, args)?;
+    let a = read_table(&args.first, &args.columns, args.skip_incomplete)?;
     let p = a.names.len();
     let rows_a = mvdist::data::rows_from_slice(&a.data, p)?;
     let mut files = vec![args.first.display().to_string()];
@@ -139,13 +127,6 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
                 args.columns.label.as_deref(),
                 args.skip_incomplete,
             )?;
-            if b.skipped > 0 {
-                eprintln!(
-                    "mvdist: skipped {} incomplete row(s) of {}",
-                    b.skipped,
-                    second.display()
-                );
-            }
             files.push(second.display().to_string());
             let rows_b = mvdist::data::rows_from_slice(&b.data, p)?;
             let total = a.rows + b.rows;

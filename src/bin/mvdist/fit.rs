@@ -62,13 +62,6 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
 
 pub fn run(args: &FitArgs) -> Result<(), CliError> {
     let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    if table.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            table.skipped,
-            args.data.display()
-        );
-    }
     let p = table.names.len();
     let model = match args.estimator {
         EstimatorChoice::Classical => {

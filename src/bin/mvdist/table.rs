@@ -226,7 +226,6 @@ pub struct Table {
     pub names: Vec<String>,
     pub data: Vec<f64>,
     pub rows: usize,
-    pub skipped: usize,
     /// The label of each complete row (empty without a label column).
     pub labels: Vec<String>,
 }
@@ -294,11 +293,16 @@ fn read_rows(
             path.display()
         )));
     }
+    if skipped > 0 {
+        eprintln!(
+            "mvdist: skipped {skipped} incomplete row(s) of {}",
+            path.display()
+        );
+    }
     Ok(Table {
         names: layout.names,
         data,
         rows,
-        skipped,
         labels,
     })
 }
