@@ -31,7 +31,11 @@ fn labelled_rows(n: usize, seed: u64) -> (Array2<f64>, Vec<u32>) {
     let mut mixes = Vec::new();
     let mut centres = Vec::new();
     for _ in 0..GROUPS {
-        centres.push((0..P).map(|_| 3.0 * rng.sample::<f64, _>(StandardNormal)).collect::<Vec<_>>());
+        centres.push(
+            (0..P)
+                .map(|_| 3.0 * rng.sample::<f64, _>(StandardNormal))
+                .collect::<Vec<_>>(),
+        );
         mixes.push(
             (0..P * P)
                 .map(|k| {
@@ -71,7 +75,10 @@ fn bench_predict(c: &mut Criterion) {
     let (train, labels) = labelled_rows(20_000, 1);
     let (x, _) = labelled_rows(1_000_000, 2);
     for (group, options) in [
-        ("classify_predict", PredictOptions::default().without_typicality()),
+        (
+            "classify_predict",
+            PredictOptions::default().without_typicality(),
+        ),
         ("classify_predict_typicality", PredictOptions::default()),
     ] {
         let mut g = c.benchmark_group(group);
@@ -80,9 +87,15 @@ fn bench_predict(c: &mut Criterion) {
             let classifier =
                 Classifier::fit(train.view(), &labels, &ClassifierOptions::new(rule)).expect("fit");
             let mut out = Predictions::new();
-            classifier.predict_into(x.view(), &options, &mut out).expect("warm");
+            classifier
+                .predict_into(x.view(), &options, &mut out)
+                .expect("warm");
             g.bench_function(name, |b| {
-                b.iter(|| classifier.predict_into(x.view(), &options, &mut out).expect("predict"))
+                b.iter(|| {
+                    classifier
+                        .predict_into(x.view(), &options, &mut out)
+                        .expect("predict")
+                })
             });
         }
         g.finish();

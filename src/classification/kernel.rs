@@ -23,8 +23,10 @@ pub(crate) struct RuleView<'a> {
     pub pooled: Option<(&'a [f64], &'a [f64], &'a [f64])>,
     /// Quadratic rule: each group's `L_g⁻¹`.
     pub group_factors: Vec<&'a [f64]>,
-    /// `G × p` centroids.
-    pub centroids: &'a [f64],
+    /// Quadratic rule: the grand mean the rows are centred on first, and
+    /// each centroid's offset from it (`G × p`).
+    pub centre: &'a [f64],
+    pub centroid_offsets: &'a [f64],
     /// Score offsets `ln π_g (− ½ ln det S_g)`.
     pub offsets: &'a [f64],
 }
@@ -133,9 +135,16 @@ fn block_body<const FMA: bool>(
                 }
             }
             None => {
+                // Transpose once, centred on the grand mean; then shift the
+                // lanes to each centroid.
+                centred_lanes(x, start, count, rule.centre, &mut s.z);
                 for (h, dh) in s.d2.iter_mut().enumerate() {
-                    let mu = &rule.centroids[h * p..(h + 1) * p];
-                    centred_lanes(x, start, count, mu, &mut s.buf);
+                    let offset = &rule.centroid_offsets[h * p..(h + 1) * p];
+                    for ((b, zi), &o) in s.buf.iter_mut().zip(&s.z).zip(offset) {
+                        for k in 0..LANES {
+                            b[k] = zi[k] - o;
+                        }
+                    }
                     *dh = lanes_kernel::<FMA>(rule.group_factors[h], p, &s.buf);
                 }
             }
@@ -214,8 +223,7 @@ pub(crate) fn predict_block(
 ) {
     #[cfg(target_arch = "x86_64")]
     {
-        if std::arch::is_x86_feature_detected!("avx512f")
-            && crate::distance::kernel::has_avx2_fma()
+        if std::arch::is_x86_feature_detected!("avx512f") && crate::distance::kernel::has_avx2_fma()
         {
             // SAFETY: the CPU supports AVX-512F, AVX2 and FMA (checked at run time).
             unsafe { block_avx512(rule, x, d2, post, assigned, s) };
@@ -247,11 +255,15 @@ mod tests {
         // Invented rows from a fixed linear congruential sequence.
         let mut state = 12345u64;
         let mut next = || {
-            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            state = state
+                .wrapping_mul(6364136223846793005)
+                .wrapping_add(1442695040888963407);
             (state >> 11) as f64 / (1u64 << 53) as f64 - 0.5
         };
         let (n, p) = (61, 5);
-        let x = ndarray::Array2::from_shape_fn((n, p), |(i, j)| next() + (i % 3) as f64 * (j as f64 - 1.0));
+        let x = ndarray::Array2::from_shape_fn((n, p), |(i, j)| {
+            next() + (i % 3) as f64 * (j as f64 - 1.0)
+        });
         let labels: Vec<usize> = (0..n).map(|i| i % 3).collect();
         for rule in [Rule::Linear, Rule::Quadratic] {
             let c = Classifier::fit(x.view(), &labels, &ClassifierOptions::new(rule)).unwrap();
