@@ -54,9 +54,9 @@ impl Scratch {
 /// integer (round to nearest even), which then sits in the low mantissa bits.
 const ROUNDING_SHIFT: f64 = 6_755_399_441_055_744.0;
 /// `ln 2` split so that `n · LN2_HI` is exact for `|n| < 2²¹` (the fdlibm
-/// constants).
-const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
-const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+/// constants `0x3fe62e42fee00000` and `0x3dea39ef35793c76`).
+const LN2_HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
+const LN2_LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
 
 /// `2^k` for an integer-valued `k` in `[−1022, 1023]`, by building the
 /// exponent field directly.
