@@ -187,6 +187,8 @@ pub struct Classifier<L> {
     pub(crate) pooled: Option<Scatter>,
     /// Each group's own scatter (quadratic rule only).
     pub(crate) group_scatters: Vec<Scatter>,
+    /// `x̄_g − centre`, `G × p`.
+    pub(crate) centroid_offsets: Vec<f64>,
     /// Linear rule: `L⁻¹ (x̄_g − centre)`, `G × p`.
     pub(crate) whitened_centroids: Vec<f64>,
     /// `ln π_g` (linear) or `ln π_g − ½ ln det S_g` (quadratic).
@@ -253,6 +255,10 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
                 *c += w * m;
             }
         }
+        let centroid_offsets: Vec<f64> = centroids
+            .chunks(p)
+            .flat_map(|mu| mu.iter().zip(&centre).map(|(m, c)| m - c))
+            .collect();
         let estimator = options.estimator;
         let (pooled, group_scatters) = match (estimator, options.rule) {
             (GroupScatterEstimator::Classical, Rule::Linear) => {
@@ -330,6 +336,7 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
             prior_kind,
             priors,
             centroids,
+            centroid_offsets,
             centre,
             pooled,
             group_scatters,

@@ -23,8 +23,10 @@ pub(crate) struct RuleView<'a> {
     pub pooled: Option<(&'a [f64], &'a [f64], &'a [f64])>,
     /// Quadratic rule: each group's `L_g⁻¹`.
     pub group_factors: Vec<&'a [f64]>,
-    /// `G × p` centroids.
-    pub centroids: &'a [f64],
+    /// Quadratic rule: the grand mean the rows are centred on first, and
+    /// each centroid's offset from it (`G × p`).
+    pub centre: &'a [f64],
+    pub centroid_offsets: &'a [f64],
     /// Score offsets `ln π_g (− ½ ln det S_g)`.
     pub offsets: &'a [f64],
 }
@@ -52,9 +54,9 @@ impl Scratch {
 /// integer (round to nearest even), which then sits in the low mantissa bits.
 const ROUNDING_SHIFT: f64 = 6_755_399_441_055_744.0;
 /// `ln 2` split so that `n · LN2_HI` is exact for `|n| < 2²¹` (the fdlibm
-/// constants).
-const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
-const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+/// constants `0x3fe62e42fee00000` and `0x3dea39ef35793c76`).
+const LN2_HI: f64 = f64::from_bits(0x3fe6_2e42_fee0_0000);
+const LN2_LO: f64 = f64::from_bits(0x3dea_39ef_3579_3c76);
 
 /// `2^k` for an integer-valued `k` in `[−1022, 1023]`, by building the
 /// exponent field directly.
@@ -133,9 +135,16 @@ fn block_body<const FMA: bool>(
                 }
             }
             None => {
+                // Transpose once, centred on the grand mean; then shift the
+                // lanes to each centroid.
+                centred_lanes(x, start, count, rule.centre, &mut s.z);
                 for (h, dh) in s.d2.iter_mut().enumerate() {
-                    let mu = &rule.centroids[h * p..(h + 1) * p];
-                    centred_lanes(x, start, count, mu, &mut s.buf);
+                    let offset = &rule.centroid_offsets[h * p..(h + 1) * p];
+                    for ((b, zi), &o) in s.buf.iter_mut().zip(&s.z).zip(offset) {
+                        for k in 0..LANES {
+                            b[k] = zi[k] - o;
+                        }
+                    }
                     *dh = lanes_kernel::<FMA>(rule.group_factors[h], p, &s.buf);
                 }
             }

@@ -204,7 +204,8 @@ impl<L> Classifier<L> {
                 .iter()
                 .map(|s| s.inverse_factor_slice())
                 .collect(),
-            centroids: &self.centroids,
+            centre: &self.centre,
+            centroid_offsets: &self.centroid_offsets,
             offsets: &self.score_offsets,
         }
     }

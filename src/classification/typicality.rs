@@ -7,21 +7,7 @@
 //! tail probability of the row's squared distance to the group's centroid,
 //! under multivariate normality of the group.
 //!
-//! | rule | scatter of group `g` | statistic | distribution |
-//! |---|---|---|---|
-//! | quadratic | its own, `n_g − 1` divisor | `n_g(n_g−p)·d² / (p(n_g+1)(n_g−1))` | F(p, n_g − p) |
-//! | linear | pooled, `ν = n − G` divisor | `(ν−p+1)·n_g·d² / (ν·p·(n_g+1))` | F(p, ν − p + 1) |
-//!
-//! The quadratic case is the new-row reference of
-//! [`Reference::new_row`](crate::calibration::Reference::new_row) with the
-//! group's `n_g` rows. The linear case follows from the same argument with
-//! the pooled scatter: for a new row `x` of group `g`,
-//! `x − x̄_g ~ N(0, (1 + 1/n_g) Σ)` independently of the pooled scatter
-//! `S`, and `ν S` is Wishart with `ν` degrees of freedom, so
-//! `T² = n_g/(n_g+1) · d²` is Hotelling's T² with `ν` degrees of freedom and
-//! `(ν−p+1)/(ν p) · T² ~ F(p, ν−p+1)` (T. W. Anderson, *An Introduction to
-//! Multivariate Statistical Analysis*, 3rd ed., 2003, §5.2). With one group
-//! (`ν = n − 1`) it reduces to the new-row reference.
+//! The statistics and their references are on [`TypicalityReference`].
 //!
 //! **Caution.** Typicality assumes that each group is multivariate normal
 //! with the modelled scatter; a low value is evidence for a closer look,
@@ -32,8 +18,24 @@ use crate::error::{Error, Result};
 
 /// The distribution of a new row's squared distance to its group's
 /// centroid, under the scatter the classification rule uses for that group.
-/// See the [module documentation](self) for the formulas, which are stated
-/// for the unbiased divisors; a classifier fitted with
+///
+/// | rule | scatter of group `g` | statistic | distribution |
+/// |---|---|---|---|
+/// | quadratic | its own, `n_g − 1` divisor | `n_g(n_g−p)·d² / (p(n_g+1)(n_g−1))` | F(p, n_g − p) |
+/// | linear | pooled, `ν = n − G` divisor | `(ν−p+1)·n_g·d² / (ν·p·(n_g+1))` | F(p, ν − p + 1) |
+///
+/// The quadratic case is the new-row reference of
+/// [`Reference::new_row`](crate::calibration::Reference::new_row) with the
+/// group's `n_g` rows. The linear case follows from the same argument with
+/// the pooled scatter: for a new row `x` of group `g`,
+/// `x − x̄_g ~ N(0, (1 + 1/n_g) Σ)` independently of the pooled scatter
+/// `S`, and `ν S` is Wishart with `ν` degrees of freedom, so
+/// `T² = n_g/(n_g+1) · d²` is Hotelling's T² with `ν` degrees of freedom and
+/// `(ν−p+1)/(ν p) · T² ~ F(p, ν−p+1)` (T. W. Anderson, *An Introduction to
+/// Multivariate Statistical Analysis*, 3rd ed., 2003, §5.2). With one group
+/// (`ν = n − 1`) it reduces to the new-row reference.
+///
+/// The formulas are stated for the unbiased divisors; a classifier fitted with
 /// [`Divisor::MaximumLikelihood`](crate::Divisor::MaximumLikelihood)
 /// returns references adjusted to its (larger) distances.
 ///

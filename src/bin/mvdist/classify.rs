@@ -269,8 +269,11 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
     )?;
     let data = read_rows(&args.data, &mut reader, &data_layout)?;
     let x = mvdist::data::rows_from_slice(&data.data, p)?;
-    let mut predict = PredictOptions::default();
-    predict.no_group_below = args.no_group_below;
+    let predict = PredictOptions {
+        no_group_below: args.no_group_below,
+        ..PredictOptions::default()
+    };
+
     let mut out = Predictions::new();
     classifier
         .predict_into(x, &predict, &mut out)
