@@ -85,6 +85,7 @@ mod linalg;
 mod model;
 pub mod model_file;
 pub mod moments;
+pub mod normality;
 pub mod scatter;
 pub mod whitening;
 
