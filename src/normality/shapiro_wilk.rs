@@ -16,7 +16,8 @@
 //!
 //! The p-value normalizes `W`:
 //!
-//! * `n = 3`: exact, `P = (6/π)(asin √W − asin √¾)`;
+//! * `n = 3`: exact, `P = (6/π)(asin √W − asin √¾)`, evaluated as
+//!   `1 − (6/π) asin √(1 − W)`;
 //! * `4 ≤ n ≤ 11`: `y = −ln(γ − ln(1 − W))` with `γ = −2.273 + 0.459n`,
 //!   mean `0.5440 − 0.39978n + 0.025054n² − 0.0006714n³` and standard
 //!   deviation `exp(1.3822 − 0.77857n + 0.062767n² − 0.0020322n³)`;
@@ -253,7 +254,7 @@ impl ShapiroWilk {
         Ok(ShapiroWilk {
             rows: n,
             statistic,
-            p_value: p_value(n, statistic, one_minus_w),
+            p_value: p_value(n, one_minus_w),
         })
     }
 
@@ -273,11 +274,13 @@ impl ShapiroWilk {
     }
 }
 
-/// Royston's p-value for `W` (with `1 − W` passed separately).
-fn p_value(n: usize, w: f64, one_minus_w: f64) -> f64 {
+/// Royston's p-value for `W`, from `1 − W`.
+fn p_value(n: usize, one_minus_w: f64) -> f64 {
     let nf = n as f64;
     if n == 3 {
-        let p = 6.0 / std::f64::consts::PI * (w.sqrt().asin() - std::f64::consts::FRAC_PI_3);
+        // (6/π)(asin √W − π/3) = 1 − (6/π) asin √(1 − W), the form that keeps
+        // its precision when W is close to 1.
+        let p = 1.0 - 6.0 / std::f64::consts::PI * one_minus_w.sqrt().asin();
         return p.clamp(0.0, 1.0);
     }
     let y = one_minus_w.ln();

@@ -50,6 +50,7 @@ import os
 import platform
 import sys
 
+import mpmath
 import numpy as np
 import scipy
 import scipy.special as sp
@@ -68,6 +69,7 @@ VERSIONS = {
     "numpy": np.__version__,
     "scipy": scipy.__version__,
     "scikit-learn": sklearn.__version__,
+    "mpmath": mpmath.__version__,
     "platform": platform.platform(),
 }
 
@@ -102,14 +104,25 @@ def shapiro_cases():
     def add(name, source, x):
         x = np.asarray(x, dtype=np.float64)
         r = st.shapiro(x)
-        cases.append({
+        case = {
             "name": name,
             "source": source,
             "n": int(len(x)),
             "data": floats(x),
             "w": float(r.statistic),
             "p_value": float(r.pvalue),
-        })
+        }
+        if len(x) == 3:
+            # n = 3 is exact (a = (-sqrt(1/2), 0, sqrt(1/2))): evaluate it in
+            # 50-digit mpmath from the float64 data, P = 1 - (6/pi) asin sqrt(1 - W).
+            with mpmath.workdps(50):
+                v = sorted(mpmath.mpf(float(t)) for t in x)
+                m = sum(v) / 3
+                ss = sum((t - m) ** 2 for t in v)
+                w = (v[2] - v[0]) ** 2 / 2 / ss
+                case["exact_w"] = float(w)
+                case["exact_p_value"] = float(1 - 6 / mpmath.pi * mpmath.asin(mpmath.sqrt(1 - w)))
+        cases.append(case)
 
     add("iris_sepal_length_3", "load_iris().data[:3, 0]", iris.data[:3, 0])
     add("wine_alcohol_3", "load_wine().data[:3, 0] (alcohol)", wine.data[:3, 0])
@@ -321,7 +334,8 @@ def main():
     write("shapiro_wilk.json", {
         "provenance": {
             "script": SCRIPT, "versions": VERSIONS,
-            "method": "cases[].w and cases[].p_value = scipy.stats.shapiro(data); "
+            "method": "cases[].w and cases[].p_value = scipy.stats.shapiro(data); for n = 3 "
+                      "also exact_w and exact_p_value in 50-digit mpmath; "
                       "normal.quantile[].z = scipy.special.ndtri(p); "
                       "normal.upper_tail[].q = scipy.special.ndtr(-z)",
         },

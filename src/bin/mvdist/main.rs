@@ -3,6 +3,7 @@
 //! ```text
 //! mvdist fit DATA.csv --out MODEL.json [--columns a,b,c]
 //! mvdist score MODEL.json DATA.csv --out SCORES.csv [--alpha 0.01] [--in-sample] [--adjust bh]
+//! mvdist normality DATA.csv [--json] [--columns a,b,c]
 //! ```
 //!
 //! Errors go to stderr with the file, the line (1-based, counting the
@@ -10,6 +11,7 @@
 //! is left behind.
 
 mod fit;
+mod normality;
 mod output;
 mod score;
 mod table;
@@ -31,6 +33,8 @@ enum Command {
     Fit(fit::FitArgs),
     /// Score rows against a model file: squared distance, p-value, flag, top variable.
     Score(score::ScoreArgs),
+    /// Check multivariate normality: Mardia, Henze-Zirkler, Royston, Doornik-Hansen, per-variable shape.
+    Normality(normality::NormalityArgs),
 }
 
 /// An error for the user: what went wrong, where, and what to do.
@@ -48,6 +52,7 @@ fn main() -> ExitCode {
     let result = match cli.command {
         Command::Fit(args) => fit::run(&args),
         Command::Score(args) => score::run(&args),
+        Command::Normality(args) => normality::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
