@@ -89,6 +89,7 @@ pub mod mean_tests;
 mod model;
 pub mod model_file;
 pub mod moments;
+pub mod normality;
 pub mod scatter;
 #[cfg(feature = "datafusion")]
 pub mod sql_functions;

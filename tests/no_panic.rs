@@ -185,6 +185,73 @@ fn exercise_classifier(c: &Classifier<u8>, x: ArrayView2<'_, f64>, values: &[f64
     }
 }
 
+/// Every normality entry point: `Err` or finite numbers, never a panic.
+fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
+    use mvdist::normality::{
+        ChiSquareQq, DoornikHansen, HenzeZirkler, Mardia, NormalityOptions, NormalityReport,
+        RoystonH, ShapiroWilk, ShapiroWilkCoefficients, VariableShape,
+    };
+    let unit = |v: f64| v.is_nan() || (0.0..=1.0).contains(&v);
+    if let Ok(m) = Mardia::compute(x) {
+        for v in [
+            m.skewness(),
+            m.kurtosis(),
+            m.skewness_statistic(),
+            m.corrected_skewness_statistic(),
+            m.kurtosis_statistic(),
+        ] {
+            assert!(v.is_finite(), "Mardia gave {v}");
+        }
+        assert!(
+            unit(m.skewness_p_value())
+                && unit(m.kurtosis_p_value())
+                && unit(m.corrected_skewness_p_value())
+        );
+    }
+    for beta in [None, Some(0.5), Some(0.0), Some(f64::NAN), Some(1e300)] {
+        let r = match beta {
+            None => HenzeZirkler::compute(x),
+            Some(b) => HenzeZirkler::compute_with_smoothing(x, b),
+        };
+        if let Ok(h) = r {
+            assert!(h.statistic().is_finite() && (0.0..=1.0).contains(&h.p_value()));
+        }
+    }
+    if let Ok(r) = RoystonH::compute(x) {
+        assert!(r.statistic().is_finite() && (0.0..=1.0).contains(&r.p_value()));
+    }
+    if let Ok(d) = DoornikHansen::compute(x) {
+        assert!(d.statistic().is_finite() && (0.0..=1.0).contains(&d.p_value()));
+    }
+    ok_finite_all(
+        ChiSquareQq::compute(x)
+            .as_ref()
+            .map(|q| q.theoretical().iter().chain(q.observed())),
+    );
+    if let Ok(shapes) = VariableShape::of_columns(x) {
+        assert!(shapes
+            .iter()
+            .all(|s| s.skewness.is_finite() && s.kurtosis.is_finite()));
+    }
+    for v in [values, &values[..values.len().min(3)]] {
+        if let Ok(sw) = ShapiroWilk::compute(v) {
+            assert!((0.0..=1.0).contains(&sw.statistic()) && (0.0..=1.0).contains(&sw.p_value()));
+        }
+    }
+    let _ = ShapiroWilkCoefficients::new(values.len());
+    for alpha in [0.05, 0.0, f64::NAN] {
+        if let Ok(options) = NormalityOptions::default().with_alpha(alpha) {
+            if let Ok(report) = NormalityReport::compute(x, &options) {
+                let json = serde_json::to_string(&report).unwrap_or_default();
+                assert!(
+                    serde_json::from_str::<NormalityReport>(&json).is_ok(),
+                    "{json}"
+                );
+            }
+        }
+    }
+}
+
 proptest! {
     #![proptest_config(ProptestConfig { cases: 256, max_shrink_iters: 200, failure_persistence: None, ..ProptestConfig::default() })]
 
@@ -211,6 +278,7 @@ proptest! {
         if let Ok(model) = DistanceModel::fit(x.view()) {
             exercise_model(&model, x.view(), &values);
         }
+        exercise_normality(x.view(), &values);
         // A model from an arbitrary scatter candidate.
         if p > 0 {
             let square: Vec<f64> = values.iter().copied().cycle().take(p * p).collect();
@@ -398,11 +466,42 @@ proptest! {
     }
 
     #[test]
+    fn normality_checks_never_panic_on_taller_matrices(
+        (n, p) in (0usize..40, 0usize..5),
+        seed in any::<u64>(),
+        wild in proptest::collection::vec((0usize..200, special()), 0..4),
+        mode in 0u8..4,
+    ) {
+        // Mostly ordinary values (so that every test runs), a few special
+        // ones at random places, sometimes a copied or constant column.
+        let mut state = seed;
+        let mut m = Array2::from_shape_fn((n, p), |_| {
+            state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
+            ((state >> 11) as f64 / (1u64 << 53) as f64 - 0.5) * 8.0
+        });
+        for (k, v) in wild {
+            if n * p > 0 {
+                m[(k % n, (k / n) % p)] = v;
+            }
+        }
+        if p >= 2 && n > 0 {
+            match mode {
+                1 => { let c = m.column(0).to_owned(); m.column_mut(1).assign(&c); }
+                2 => m.column_mut(1).fill(3.0),
+                _ => {}
+            }
+        }
+        let values: Vec<f64> = m.iter().copied().collect();
+        exercise_normality(m.view(), &values);
+    }
+
+    #[test]
     fn arbitrary_bytes_never_crash_the_deserializers(bytes in proptest::collection::vec(any::<u8>(), 0..200)) {
         let text = String::from_utf8_lossy(&bytes);
         let _ = serde_json::from_str::<DistanceModel>(&text);
         let _ = serde_json::from_str::<MomentAccumulator>(&text);
         let _ = serde_json::from_str::<Scatter>(&text);
+        let _ = serde_json::from_str::<mvdist::normality::NormalityReport>(&text);
     }
 }
 

@@ -6,6 +6,7 @@
 //! mvdist classify --train TRAIN.csv --label COLUMN DATA.csv --out OUT.csv [--rule linear|quadratic] [--priors equal|proportional] [--loo]
 //! mvdist compare-means A.csv [B.csv] [--target 1,2,…] [--paired | --unequal-scatter] [--json]
 //! mvdist chart DATA.csv --out POINTS.csv [--svg CHART.svg] [--new NEW.csv] [--alpha A | --arl N]
+//! mvdist normality DATA.csv [--json] [--columns a,b,c]
 //! ```
 //!
 //! Errors go to stderr with the file, the line (1-based, counting the
@@ -16,6 +17,7 @@ mod chart;
 mod classify;
 mod compare_means;
 mod fit;
+mod normality;
 mod output;
 mod score;
 mod table;
@@ -43,6 +45,8 @@ enum Command {
     CompareMeans(compare_means::CompareMeansArgs),
     /// T² control chart: Phase I on historical rows, Phase II on new rows; CSV and SVG.
     Chart(chart::ChartArgs),
+    /// Check multivariate normality: Mardia, Henze-Zirkler, Royston, Doornik-Hansen, per-variable shape.
+    Normality(normality::NormalityArgs),
 }
 
 /// An error for the user: what went wrong, where, and what to do.
@@ -63,6 +67,7 @@ fn main() -> ExitCode {
         Command::Classify(args) => classify::run(&args),
         Command::CompareMeans(args) => compare_means::run(&args),
         Command::Chart(args) => chart::run(&args),
+        Command::Normality(args) => normality::run(&args),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

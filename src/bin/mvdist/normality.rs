@@ -1,0 +1,144 @@
+//! `mvdist normality`: multivariate normality checks on a CSV file.
+
+use crate::fit::explain_fit_error;
+use crate::table::{read_table, ColumnChoice};
+use crate::CliError;
+use mvdist::normality::{format_p_value, NormalityOptions, NormalityReport, TestOutcome};
+use std::fmt::Write as _;
+use std::path::PathBuf;
+
+#[derive(clap::Args)]
+pub struct NormalityArgs {
+    /// CSV file of rows to check (header row first).
+    pub data: PathBuf,
+    /// Print the report as JSON (keys documented in the README) instead of a table.
+    #[arg(long)]
+    pub json: bool,
+    #[command(flatten)]
+    pub columns: ColumnChoice,
+    /// Leave out rows with a missing value (empty, NA, NaN) instead of stopping.
+    #[arg(long)]
+    pub skip_incomplete: bool,
+    /// Significance level for the readings.
+    #[arg(long, default_value_t = 0.05)]
+    pub alpha: f64,
+}
+
+pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
+    let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
+    if table.skipped > 0 {
+        eprintln!(
+            "mvdist: skipped {} incomplete row(s) of {}",
+            table.skipped,
+            args.data.display()
+        );
+    }
+    let options = NormalityOptions::default()
+        .with_alpha(args.alpha)
+        .map_err(|e| CliError(format!("--alpha: {e}")))?;
+    let rows = mvdist::data::rows_from_slice(&table.data, table.names.len())?;
+    let report = NormalityReport::compute(rows, &options)
+        .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?
+        .with_variable_names(table.names.clone())?;
+    if args.json {
+        let json = serde_json::to_string_pretty(&report)
+            .map_err(|e| CliError(format!("cannot write the report as JSON: {e}")))?;
+        println!("{json}");
+    } else {
+        print!("{}", render(&report, &table.names, &args.data));
+    }
+    Ok(())
+}
+
+/// Compact number: fixed for ordinary magnitudes, scientific otherwise.
+fn number(v: f64) -> String {
+    if v == 0.0 || (1e-3..1e6).contains(&v.abs()) {
+        format!("{v:.4}")
+    } else {
+        format!("{v:.3e}")
+    }
+}
+
+fn render(report: &NormalityReport, names: &[String], path: &std::path::Path) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "normality checks of {}: {} rows × {} variables ({}), alpha {}\n",
+        path.display(),
+        report.rows,
+        report.columns,
+        names.join(", "),
+        report.alpha
+    );
+    let _ = writeln!(
+        out,
+        "{:<32} {:>12} {:>8} {:>10}  result",
+        "test", "statistic", "df", "p-value"
+    );
+    for outcome in &report.tests {
+        match outcome {
+            TestOutcome::Computed(s) => {
+                let df = s.degrees_of_freedom.map_or_else(
+                    || "-".to_string(),
+                    |d| {
+                        if d.fract() == 0.0 {
+                            format!("{d:.0}")
+                        } else {
+                            format!("{d:.2}")
+                        }
+                    },
+                );
+                let _ = writeln!(
+                    out,
+                    "{:<32} {:>12} {:>8} {:>10}  {}",
+                    s.test.title(),
+                    number(s.statistic),
+                    df,
+                    format_p_value(s.p_value),
+                    if s.significant {
+                        "departs from normal"
+                    } else {
+                        "no evidence of departure"
+                    }
+                );
+            }
+            TestOutcome::NotComputed(s) => {
+                let _ = writeln!(
+                    out,
+                    "{:<32} not computed: {}",
+                    s.test.title(),
+                    s.not_computed
+                );
+            }
+        }
+    }
+    let _ = writeln!(out, "\nreadings:");
+    for s in report.tests.iter().filter_map(TestOutcome::summary) {
+        let _ = writeln!(out, "  {}: {}", s.test.title(), s.reading);
+    }
+    let width = names.iter().map(|n| n.len()).max().unwrap_or(8).max(8);
+    let _ = writeln!(
+        out,
+        "\n{:<width$} {:>10} {:>10} {:>16} {:>10}",
+        "variable", "skewness", "kurtosis", "Shapiro-Wilk W", "p-value"
+    );
+    for (v, name) in report.per_variable.iter().zip(names) {
+        let _ = writeln!(
+            out,
+            "{:<width$} {:>10.4} {:>10.4} {:>16} {:>10}",
+            name,
+            v.skewness,
+            v.kurtosis,
+            v.shapiro_wilk_w
+                .map_or_else(|| "-".into(), |w| format!("{w:.5}")),
+            v.shapiro_wilk_p_value
+                .map_or_else(|| "-".into(), format_p_value),
+        );
+    }
+    let _ = writeln!(out, "(skewness 0 and kurtosis 3 for a normal population)");
+    if let Some(why) = &report.shapiro_wilk_not_computed {
+        let _ = writeln!(out, "Shapiro-Wilk not computed: {why}");
+    }
+    let _ = writeln!(out, "\nnote: {}", report.caution);
+    out
+}
