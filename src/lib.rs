@@ -85,7 +85,9 @@ mod linalg;
 mod model;
 pub mod model_file;
 pub mod moments;
+pub mod robust;
 pub mod scatter;
+pub mod shrinkage;
 pub mod whitening;
 
 pub use calibration::{Adjustment, Reference, RowOrigin};
