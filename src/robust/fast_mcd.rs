@@ -8,7 +8,11 @@
 //! * **Starts.** Each start draws a random `(p + 1)`-subset (adding random
 //!   rows while its covariance is singular), takes its estimate, and applies
 //!   two C-steps; the best 10 by determinant are kept and iterated to
-//!   convergence.
+//!   convergence. When `n ≤ 600` a C-step is cheap and we iterate every
+//!   start to convergence and keep 30: screening after two steps discards
+//!   the basin of the best subset too often (on the diabetes data, 16
+//!   seeds: with two steps 6 of 16 fits end above scikit-learn's best
+//!   `ln det`, with full iteration none).
 //! * **Nested subsets for large n.** For `n > 600` the starts run inside
 //!   `k = min(5, ⌊n/300⌋)` disjoint random subsets (of about 300 rows, drawn
 //!   from a random merged set of `min(n, 1500)` rows), `500/k` starts each
@@ -43,8 +47,13 @@ const SUBSET_ROWS: usize = 300;
 const MAX_SUBSETS: usize = 5;
 /// Size of the merged set.
 const MERGED_ROWS: usize = 1500;
-/// Candidates kept after each stage.
+/// Candidates kept after each stage of the nested scheme.
 const KEEP: usize = 10;
+/// Candidates iterated to convergence when there is no nesting (`n ≤ 600`,
+/// where a full-data C-step is cheap). The paper keeps 10; keeping 30
+/// makes the result depend less on the seed (on the wine data, 16 seeds:
+/// worst `ln det` −7.78 instead of −7.43).
+const KEEP_UNNESTED: usize = 30;
 /// C-steps for starts and for the merged stage.
 const SHORT_STEPS: usize = 2;
 /// Cap on C-steps when iterating to convergence.
@@ -72,6 +81,9 @@ pub(crate) struct SearchPlan {
     pub(crate) subset_size: usize,
     pub(crate) starts: usize,
     pub(crate) seed: u64,
+    /// Iterate every start to convergence when there is no nesting
+    /// (`n ≤ 600`); otherwise two C-steps per start, as in the paper.
+    pub(crate) thorough: bool,
 }
 
 struct Candidate {
@@ -205,6 +217,7 @@ fn concentrate(
 fn start(
     x: ArrayView2<'_, f64>,
     h: usize,
+    steps: usize,
     rng: &mut SplitMix64,
     s: &mut Scratch,
 ) -> Result<Option<Step>> {
@@ -214,7 +227,7 @@ fn start(
     loop {
         match estimate(x, &idx, &mut s.rows)? {
             Estimate::Regular(mean, sc) => {
-                return concentrate(x, h, mean, sc, SHORT_STEPS, s).map(Some)
+                return concentrate(x, h, mean, sc, steps, s).map(Some)
             }
             Estimate::Singular(mean, cov) => {
                 if idx.len() >= h {
@@ -291,15 +304,17 @@ fn run_starts(
     h: usize,
     count: usize,
     stage: u64,
+    steps: usize,
+    keep: usize,
 ) -> Result<std::result::Result<Vec<Candidate>, Hyperplane>> {
     let steps: Vec<Result<Option<Step>>> = (0..count)
         .into_par_iter()
         .map_init(Scratch::default, |s, k| {
             let mut rng = SplitMix64::stream(plan.seed, stage, k as u64);
-            start(x, h, &mut rng, s)
+            start(x, h, steps, &mut rng, s)
         })
         .collect();
-    Ok(collect(full, plan.subset_size, steps)?.map(|c| keep_best(c, KEEP)))
+    Ok(collect(full, plan.subset_size, steps)?.map(|c| keep_best(c, keep)))
 }
 
 /// C-steps from each candidate's estimate on the rows of `x`.
@@ -398,7 +413,16 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
     let k = (n / SUBSET_ROWS).clamp(1, MAX_SUBSETS);
     let nested = n > NESTED_ABOVE && n.min(MERGED_ROWS) / k > 2 * (p + 1);
     let stage = if !nested {
-        run_starts(x, plan, x, h, plan.starts, 0)?
+        run_starts(
+            x,
+            plan,
+            x,
+            h,
+            plan.starts,
+            0,
+            if plan.thorough { MAX_STEPS } else { SHORT_STEPS },
+            KEEP_UNNESTED,
+        )?
     } else {
         let mut rng = SplitMix64::stream(plan.seed, u64::MAX, 0);
         let merged_rows = n.min(MERGED_ROWS);
@@ -410,7 +434,7 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
             let hi = (j + 1) * merged_rows / k;
             let sub = copy_rows(x, &merged_idx[lo..hi]);
             let h_sub = ceil_share(hi - lo, h, n).max(p + 1).min(hi - lo);
-            match run_starts(x, plan, sub.view(), h_sub, per_start, 1 + j as u64)? {
+            match run_starts(x, plan, sub.view(), h_sub, per_start, 1 + j as u64, SHORT_STEPS, KEEP)? {
                 Ok(c) => pooled.extend(c),
                 Err(hp) => return Ok(Search::ExactFit(hp)),
             }

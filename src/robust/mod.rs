@@ -128,7 +128,7 @@ pub enum McdStage {
 ///
 /// | setting | default | meaning |
 /// |---|---|---|
-/// | support fraction | none: `h = ⌊(n + p + 1)/2⌋` | `h = ⌈fraction · n⌉`, which must lie in `[⌊(n+p+1)/2⌋, n]` |
+/// | support fraction | none: `h = ⌊(n + p + 1)/2⌋` | `h = ⌊fraction · n⌋`, which must lie in `[⌊(n+p+1)/2⌋, n]` |
 /// | seed | 0 | seed of the random subset draws; equal seeds give equal fits |
 /// | starts | 500 | random elemental starts (Rousseeuw and Van Driessen 1999) |
 /// | small-sample replications | 100 | simulated samples for the Pison et al. correction (0: off; only used when `n ≤ 1000`) |
@@ -162,7 +162,7 @@ impl Default for McdSettings {
 }
 
 impl McdSettings {
-    /// Uses `h = ⌈fraction · n⌉` rows.
+    /// Uses `h = ⌊fraction · n⌋` rows (as scikit-learn's `MinCovDet` does).
     ///
     /// # Errors
     /// [`Error::InvalidParameter`] unless `0 < fraction ≤ 1` (whether `h` is
@@ -239,7 +239,7 @@ impl McdSettings {
         let lowest = (n + p + 1) / 2;
         let h = match self.support_fraction {
             None => lowest,
-            Some(f) => ((f * n as f64) - 1e-9).ceil().max(0.0) as usize,
+            Some(f) => ((f * n as f64) + 1e-9).floor().max(0.0) as usize,
         };
         if h < lowest || h > n {
             return Err(Error::invalid(
@@ -502,6 +502,7 @@ pub fn minimum_covariance_determinant(
         subset_size: h,
         starts: settings.starts,
         seed: settings.seed,
+        thorough: true,
     };
     let raw = match search(x, &plan)? {
         Search::Found(raw) => raw,

@@ -61,6 +61,7 @@ pub(crate) fn simulated_factors(
         subset_size: h,
         starts: SIMULATION_STARTS,
         seed: SplitMix64::stream(seed, 0xFAC7, r as u64).next_u64(),
+        thorough: false,
     };
     // Pass 1: raw estimates, consistency-corrected.
     let raws: Vec<Option<(Vec<f64>, crate::Scatter)>> = (0..replications)
