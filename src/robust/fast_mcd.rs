@@ -296,7 +296,9 @@ fn collect(
     Ok(Ok(out))
 }
 
-/// `count` starts on the rows of `x` (subset size `h`), best `KEEP` kept.
+/// `count` starts on the rows of `x` (subset size `h`), `steps` C-steps
+/// each, best `keep` kept.
+#[allow(clippy::too_many_arguments)]
 fn run_starts(
     full: ArrayView2<'_, f64>,
     plan: &SearchPlan,
