@@ -112,6 +112,15 @@ pub enum Error {
         /// The path and the operating system's reason.
         reason: String,
     },
+    /// An exact fit: at least `h` rows (the minimum covariance determinant
+    /// subset size) lie on one hyperplane, so the robust scatter is
+    /// singular. The hyperplane and the rows on it are reported; the usual
+    /// remedy is to drop one of the variables involved (the largest
+    /// coefficients) or to check why the rows are tied.
+    ExactFit {
+        /// The hyperplane `aᵀx = b` and the rows on it.
+        hyperplane: crate::robust::Hyperplane,
+    },
     /// A saved model or accumulator is malformed.
     Format {
         /// What is wrong with it.
@@ -212,6 +221,13 @@ impl fmt::Display for Error {
                 "row {row} is so far from the centre that its squared distance overflows; check its units"
             ),
             Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
+            Error::ExactFit { hyperplane } => write!(
+                f,
+                "exact fit: {} rows lie on the hyperplane {} (at least {} are needed for a robust fit); the robust scatter is singular — drop a variable involved or check the tied rows",
+                hyperplane.rows().len(),
+                hyperplane,
+                hyperplane.subset_size()
+            ),
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
             Error::Io { reason } => write!(f, "input/output error: {reason}"),
             Error::TooFewGroups { found } => write!(

@@ -90,7 +90,9 @@ mod model;
 pub mod model_file;
 pub mod moments;
 pub mod normality;
+pub mod robust;
 pub mod scatter;
+pub mod shrinkage;
 #[cfg(feature = "datafusion")]
 pub mod sql_functions;
 pub mod whitening;

@@ -6,7 +6,9 @@ use crate::distance::kernel;
 use crate::error::{Error, Result};
 use crate::explain::{contributions, ContributionOrder, Contributions};
 use crate::moments::{Divisor, MomentAccumulator};
+use crate::robust::{McdSettings, McdStage};
 use crate::scatter::Scatter;
+use crate::shrinkage::{OasFormula, ShrinkageTarget};
 use crate::whitening::{Whitener, WhiteningKind};
 use ndarray::{Array1, ArrayView2};
 use rayon::prelude::*;
@@ -40,6 +42,45 @@ pub enum Estimator {
     SlidingWindow {
         /// The window size.
         capacity: usize,
+    },
+    /// Sample mean and Ledoit–Wolf shrinkage toward a scaled identity
+    /// ([`crate::shrinkage::ledoit_wolf`]).
+    LedoitWolf {
+        /// The estimated intensity used, in `[0, 1]`.
+        intensity: f64,
+    },
+    /// Sample mean and oracle approximating shrinkage toward a scaled
+    /// identity ([`crate::shrinkage::oas`]).
+    Oas {
+        /// The estimated intensity used, in `[0, 1]`.
+        intensity: f64,
+        /// Which formula gave it.
+        formula: OasFormula,
+    },
+    /// Sample mean and shrinkage with an intensity chosen by the caller
+    /// ([`crate::shrinkage::shrink`]).
+    Shrunk {
+        /// The intensity, in `[0, 1]`.
+        intensity: f64,
+        /// The target.
+        target: ShrinkageTarget,
+    },
+    /// Minimum covariance determinant by FastMCD
+    /// ([`crate::robust::minimum_covariance_determinant`]).
+    Mcd {
+        /// Raw (the `h`-subset) or one-step reweighted estimate.
+        stage: McdStage,
+        /// The subset size `h`.
+        subset_size: usize,
+        /// The support fraction the caller asked for, if any (otherwise
+        /// `h = ⌊(n + p + 1)/2⌋`).
+        support_fraction: Option<f64>,
+        /// The seed of the random subset draws.
+        seed: u64,
+        /// The factor applied to the maximum-likelihood covariance of the
+        /// retained rows (consistency, and for the reweighted estimate the
+        /// small-sample correction too).
+        scale_factor: f64,
     },
 }
 
@@ -246,6 +287,96 @@ impl DistanceModel {
             positive,
             Estimator::Weighted { divisor },
         )
+    }
+
+    /// Fits the sample mean and the Ledoit–Wolf shrinkage covariance; see
+    /// [`crate::shrinkage`] for the formula and the cautions about p-values.
+    ///
+    /// # Errors
+    /// As [`crate::shrinkage::ledoit_wolf`].
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::DistanceModel;
+    /// use ndarray::array;
+    /// // Fewer rows than variables: the classical fit fails, this one works.
+    /// let rows = array![[1.0, 2.0, 0.5, 3.0], [2.0, 1.5, 1.0, 2.0], [0.5, 3.0, 2.0, 2.5]];
+    /// assert!(DistanceModel::fit(rows.view()).is_err());
+    /// let model = DistanceModel::fit_ledoit_wolf(rows.view())?;
+    /// assert!(model.squared_distance(&[1.0, 2.0, 1.0, 2.5])? > 0.0);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_ledoit_wolf(rows: ArrayView2<'_, f64>) -> Result<Self> {
+        crate::shrinkage::ledoit_wolf(rows)?.into_model()
+    }
+
+    /// Fits the sample mean and the OAS shrinkage covariance with the given
+    /// formula; see [`crate::shrinkage`].
+    ///
+    /// # Errors
+    /// As [`crate::shrinkage::oas`].
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{shrinkage::OasFormula, DistanceModel, Estimator};
+    /// use ndarray::array;
+    /// let rows = array![[1.0, 2.0], [2.0, 2.5], [4.0, 3.0], [3.0, 5.0], [0.0, 1.0]];
+    /// let model = DistanceModel::fit_oas(rows.view(), OasFormula::Published)?;
+    /// assert!(matches!(model.estimator(), Estimator::Oas { .. }));
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_oas(rows: ArrayView2<'_, f64>, formula: OasFormula) -> Result<Self> {
+        crate::shrinkage::oas(rows, formula)?.into_model()
+    }
+
+    /// Fits the sample mean and `(1 − ρ) S + ρ T` with a caller-chosen
+    /// intensity and target; see [`crate::shrinkage::shrink`].
+    ///
+    /// # Errors
+    /// As [`crate::shrinkage::shrink`].
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{shrinkage::ShrinkageTarget, DistanceModel};
+    /// use ndarray::array;
+    /// let rows = array![[1.0, 2.0], [2.0, 3.5], [3.0, 5.0], [4.0, 5.5]];
+    /// let model = DistanceModel::fit_shrunk(rows.view(), 0.2, ShrinkageTarget::ScaledIdentity)?;
+    /// assert_eq!(model.dim(), 2);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_shrunk(
+        rows: ArrayView2<'_, f64>,
+        intensity: f64,
+        target: ShrinkageTarget,
+    ) -> Result<Self> {
+        crate::shrinkage::shrink(rows, intensity, target)?.into_model()
+    }
+
+    /// Fits the one-step reweighted minimum covariance determinant estimate
+    /// by FastMCD; see [`crate::robust`]. Its [`reference`](Self::reference)
+    /// is χ²(p) for every row origin. For the raw estimate (Hardin–Rocke F
+    /// reference) use [`crate::robust::McdFit::raw_model`].
+    ///
+    /// # Errors
+    /// As [`crate::robust::minimum_covariance_determinant`], including
+    /// [`Error::ExactFit`] when at least `h` rows lie on a hyperplane.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{robust::McdSettings, DistanceModel, RowOrigin};
+    /// use ndarray::Array2;
+    /// // 40 rows on a tilted ellipse and 6 gross outliers.
+    /// let rows = Array2::from_shape_fn((46, 2), |(i, j)| {
+    ///     let t = i as f64 * 0.7;
+    ///     if i >= 40 { 30.0 + i as f64 } else if j == 0 { t.cos() * 2.0 } else { t.sin() + 0.5 * t.cos() }
+    /// });
+    /// let model = DistanceModel::fit_mcd(rows.view(), &McdSettings::default().with_seed(1))?;
+    /// let cutoff = model.cutoff(0.025, RowOrigin::InSample)?;
+    /// assert!(model.squared_distance(&[70.0, 70.0])? > cutoff);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_mcd(rows: ArrayView2<'_, f64>, settings: &McdSettings) -> Result<Self> {
+        crate::robust::minimum_covariance_determinant(rows, settings)?.model()
     }
 
     /// The model of the rows summarized by an accumulator.
@@ -465,13 +596,40 @@ impl DistanceModel {
         kernel::batch_squared_distances(&self.scatter, &self.location, rows, out)
     }
 
-    /// The reference distribution for rows of the given origin.
+    /// The reference distribution for rows of the given origin, chosen by
+    /// the estimator:
+    ///
+    /// | estimator | `New`, `InSample` | `KnownParameters` |
+    /// |---|---|---|
+    /// | classical, weighted, supplied | F, Beta (exact under normality) | χ²(p) |
+    /// | shrinkage (Ledoit–Wolf, OAS, fixed) | F, Beta (approximate; see [`crate::shrinkage`]) | χ²(p) |
+    /// | MCD, reweighted | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
+    /// | MCD, raw | Hardin–Rocke F ([`Reference::RawMcdF`]) | χ²(p) |
     ///
     /// # Errors
     /// [`Error::TooFewRows`] if the model's sample is too small for that
-    /// reference (`n > p` for new rows, `n > p + 1` for in-sample rows).
+    /// reference (`n > p` for new rows, `n > p + 1` for in-sample rows);
+    /// for a raw MCD model, the errors of [`Reference::raw_mcd`].
     pub fn reference(&self, origin: RowOrigin) -> Result<Reference> {
-        Reference::for_origin(origin, self.sample_size, self.dim())
+        match (&self.estimator, origin) {
+            (_, RowOrigin::KnownParameters) => Reference::chi_square(self.dim()),
+            (
+                Estimator::Mcd {
+                    stage: McdStage::Reweighted,
+                    ..
+                },
+                _,
+            ) => Reference::chi_square(self.dim()),
+            (
+                Estimator::Mcd {
+                    stage: McdStage::Raw,
+                    subset_size,
+                    ..
+                },
+                _,
+            ) => Reference::raw_mcd(self.sample_size, self.dim(), *subset_size),
+            _ => Reference::for_origin(origin, self.sample_size, self.dim()),
+        }
     }
 
     /// The squared distance beyond which rows of the given origin have

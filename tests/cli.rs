@@ -975,3 +975,122 @@ fn classify_errors_name_the_group_or_column() {
         "line 2, column 'petal_width': 'x' is not a number",
     );
 }
+
+/// `fit --estimator E` for every estimator: the model file records the
+/// estimator (tagged by `kind`) and its settings, and `score` uses the
+/// reference that goes with it.
+#[test]
+fn fit_with_each_estimator_then_score() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    for (estimator, extra, kind, reference) in [
+        ("classical", vec![], "\"kind\": \"classical\"", "new-row F"),
+        (
+            "ledoit-wolf",
+            vec![],
+            "\"kind\": \"ledoit_wolf\"",
+            "new-row F",
+        ),
+        ("oas", vec![], "\"kind\": \"oas\"", "new-row F"),
+        (
+            "mcd",
+            vec!["--support", "0.75", "--seed", "11"],
+            "\"kind\": \"mcd\"",
+            "chi-square",
+        ),
+        ("mcd", vec![], "\"stage\": \"reweighted\"", "chi-square"),
+    ] {
+        let model = dir.path().join(format!("model_{estimator}.json"));
+        mvdist()
+            .arg("fit")
+            .arg(&data)
+            .arg("--out")
+            .arg(&model)
+            .args(["--label", "flower", "--estimator", estimator])
+            .args(&extra)
+            .assert()
+            .success()
+            .stdout(predicate::str::contains(format!(
+                "fitted a {estimator} model on 150 rows"
+            )));
+        let text = std::fs::read_to_string(&model).unwrap();
+        assert!(text.contains(kind), "{estimator}: {text}");
+        if !extra.is_empty() {
+            assert!(
+                text.contains("\"seed\": 11") && text.contains("\"support_fraction\": 0.75"),
+                "{text}"
+            );
+            assert!(text.contains("\"subset_size\": 112"), "{text}");
+        }
+        let out = dir.path().join(format!("scores_{estimator}.csv"));
+        mvdist()
+            .arg("score")
+            .arg(&model)
+            .arg(&data)
+            .arg("--out")
+            .arg(&out)
+            .args(["--label", "flower"])
+            .assert()
+            .success()
+            .stdout(predicate::str::contains(format!("({reference} reference")));
+        let rows = read_scores(&out);
+        assert_eq!(rows.len(), 150);
+        // Scores equal the library's for the model as saved.
+        let file = mvdist::model_file::ModelFile::from_json(&text).unwrap();
+        let f = common::fixture("iris_covariance.json");
+        let x = common::matrix(&f["data"]);
+        let lib = file.model().score(x.view(), RowOrigin::New).unwrap();
+        for (i, r) in rows.iter().enumerate() {
+            let d2: f64 = r[2].parse().unwrap();
+            assert!((d2 - lib.squared_distances()[i]).abs() <= 1e-12 * d2.max(1.0));
+        }
+    }
+}
+
+#[test]
+fn robust_fit_errors() {
+    let dir = TempDir::new().unwrap();
+    let ok = "a,b\n1,2\n2,1\n3,5\n4,4\n5,2\n6,7\n7,3\n8,8\n";
+    fit_fails(
+        &dir,
+        Some(ok),
+        &["--estimator", "mcd", "--support", "0.2"],
+        "outside [5, 8]",
+    );
+    fit_fails(
+        &dir,
+        Some(ok),
+        &["--estimator", "mcd", "--support", "1.5"],
+        "--support 1.5",
+    );
+    fit_fails(
+        &dir,
+        Some(ok),
+        &["--seed", "3"],
+        "--support and --seed apply to --estimator mcd only",
+    );
+    // Six of eight rows on b = 2a + 1: an exact fit, named with the columns.
+    fit_fails(
+        &dir,
+        Some("a,b\n1,3\n2,5\n3,7\n4,9\n5,11\n6,13\n7,1\n8,20\n"),
+        &["--estimator", "mcd"],
+        "exact fit: 6 of 8 rows satisfy",
+    );
+    // Fewer rows than variables: shrinkage works, MCD says why not.
+    let wide = "a,b,c,d\n1,2,3,4\n2,1,0,3\n3,5,1,1\n";
+    let model = dir.path().join("wide.json");
+    mvdist()
+        .arg("fit")
+        .arg(write(dir.path(), "wide.csv", wide))
+        .arg("--out")
+        .arg(&model)
+        .args(["--estimator", "ledoit-wolf"])
+        .assert()
+        .success();
+    fit_fails(
+        &dir,
+        Some(wide),
+        &["--estimator", "mcd"],
+        "3 complete rows are too few for 4 variables",
+    );
+}

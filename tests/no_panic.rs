@@ -294,6 +294,44 @@ proptest! {
                 ok_finite(s.squared_norm(&diag));
             }
         }
+        // Shrinkage and robust fits.
+        use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdSettings};
+        use mvdist::shrinkage::{ledoit_wolf, oas, shrink, OasFormula, ShrinkageTarget};
+        let mut fitted = Vec::new();
+        fitted.push(ledoit_wolf(x.view()).map(|f| f.into_model()));
+        for formula in [OasFormula::Published, OasFormula::WithoutTwoOverP] {
+            fitted.push(oas(x.view(), formula).map(|f| f.into_model()));
+        }
+        for &v in values.iter().take(3).chain([0.0, 0.5, 1.0].iter()) {
+            for target in [ShrinkageTarget::ScaledIdentity, ShrinkageTarget::Diagonal] {
+                fitted.push(shrink(x.view(), v, target).map(|f| f.into_model()));
+            }
+        }
+        for model in fitted.into_iter().flatten().flatten() {
+            assert!(model.scatter().log_determinant().is_finite());
+            exercise_model(&model, x.view(), &values);
+        }
+        let quick = McdSettings::default().with_starts(20).unwrap().with_small_sample_replications(0);
+        let mut settings = vec![quick.clone(), McdSettings::default().with_small_sample_replications(3)];
+        for &v in values.iter().take(2).chain([0.75, 1.0].iter()) {
+            if let Ok(s) = quick.clone().with_support_fraction(v) {
+                settings.push(s);
+            }
+        }
+        for s in &settings {
+            if let Ok(fit) = minimum_covariance_determinant(x.view(), s) {
+                assert!(fit.raw_log_determinant().is_finite());
+                for model in [fit.model(), fit.raw_model()].into_iter().flatten() {
+                    exercise_model(&model, x.view(), &values);
+                }
+            }
+            let _ = DistanceModel::fit_mcd(x.view(), s);
+        }
+        for &v in values.iter().take(4) {
+            ok_finite(consistency_factor(p, v));
+            ok_finite(consistency_factor(n, v.abs().fract()));
+        }
+
         let _ = Scatter::new(x.view());
         let _ = Scatter::with_collinearity_tolerance(&flat, p, 0.5);
         let _ = Scatter::with_collinearity_tolerance(&flat, p, f64::NAN);
@@ -371,6 +409,8 @@ proptest! {
         // Calibration with arbitrary parameters.
         for &v in values.iter().take(6) {
             for r in [Reference::chi_square(p), Reference::new_row(n, p), Reference::in_sample(n, p),
+                      Reference::raw_mcd(n, p, (n + p + 1) / 2), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
+                      Ok(Reference::RawMcdF { n, dim: p, subset_size: v.abs().min(1e6) as usize }),
                       Ok(Reference::NewRowF { n, dim: p }), Ok(Reference::InSampleBeta { n, dim: p })].into_iter().flatten() {
                 {
                     let pv = r.p_value(v);

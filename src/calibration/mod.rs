@@ -44,6 +44,7 @@
 
 mod adjust;
 mod distributions;
+pub(crate) mod hardin_rocke;
 pub(crate) mod special;
 
 pub use adjust::{adjusted_p_values, Adjustment};
@@ -102,6 +103,20 @@ pub enum Reference {
         /// Number of variables `p`.
         dim: usize,
     },
+    /// `(m−p+1)·d²/(p m) ~ F(p, m−p+1)` (Hardin and Rocke 2005): `d²` is
+    /// measured with a raw minimum covariance determinant estimate
+    /// (consistency factor applied) of subset size `h` from `n` rows, and
+    /// the row is independent of it (new, or outside the MCD subset). `m` is
+    /// the approximate Wishart degrees of freedom; see
+    /// [`Reference::raw_mcd`].
+    RawMcdF {
+        /// Rows in the fitting sample.
+        n: usize,
+        /// Number of variables `p`.
+        dim: usize,
+        /// The MCD subset size `h`.
+        subset_size: usize,
+    },
 }
 
 impl Reference {
@@ -153,6 +168,56 @@ impl Reference {
         Ok(Reference::NewRowF { n, dim })
     }
 
+    /// The Hardin–Rocke F reference for distances from a raw minimum
+    /// covariance determinant estimate (consistency factor applied) with
+    /// subset size `subset_size` from `n` rows of `dim` variables.
+    ///
+    /// The degrees of freedom `m` follow Hardin and Rocke (2005): an
+    /// asymptotic value from the MCD's influence function (Croux and
+    /// Haesbroeck 1999) times their simulated small-sample adjustment
+    /// `exp(0.725 − 0.00663 p − 0.0780 ln n)`; [`Reference::degrees_of_freedom`]
+    /// reports it. The approximation is for rows independent of the estimate
+    /// (new rows, or rows outside the MCD subset): rows inside the subset
+    /// are closer to the centre than it says.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] if `dim` is 0, `subset_size` is not in
+    /// `(dim, n]`, or no usable `m` results.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::calibration::Reference;
+    /// let r = Reference::raw_mcd(200, 5, 103)?;
+    /// let m = r.degrees_of_freedom().unwrap();
+    /// assert!(m > 30.0 && m < 45.0);
+    /// // The cutoff is well beyond the χ²(5) one at the same level.
+    /// let chi2 = Reference::chi_square(5)?;
+    /// assert!(r.cutoff(0.025)? > chi2.cutoff(0.025)?);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn raw_mcd(n: usize, dim: usize, subset_size: usize) -> Result<Self> {
+        hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?;
+        Ok(Reference::RawMcdF {
+            n,
+            dim,
+            subset_size,
+        })
+    }
+
+    /// The Wishart degrees of freedom `m` of a [`Reference::RawMcdF`]
+    /// reference; `None` for the other kinds (or an invalid hand-built
+    /// value).
+    pub fn degrees_of_freedom(&self) -> Option<f64> {
+        match *self {
+            Reference::RawMcdF {
+                n,
+                dim,
+                subset_size,
+            } => hardin_rocke::hardin_rocke_dof(n, dim, subset_size).ok(),
+            _ => None,
+        }
+    }
+
     /// The reference for rows of the given origin, for a model fitted on `n`
     /// rows of `dim` variables.
     ///
@@ -172,7 +237,8 @@ impl Reference {
         match *self {
             Reference::ChiSquare { dim }
             | Reference::InSampleBeta { dim, .. }
-            | Reference::NewRowF { dim, .. } => dim,
+            | Reference::NewRowF { dim, .. }
+            | Reference::RawMcdF { dim, .. } => dim,
         }
     }
 
@@ -199,6 +265,14 @@ impl Reference {
             }
             Reference::NewRowF { n, dim } => match fisher(n, dim) {
                 Ok(f) => f.tails(d2 / f_scale(n, dim)),
+                Err(_) => (f64::NAN, f64::NAN),
+            },
+            Reference::RawMcdF {
+                n,
+                dim,
+                subset_size,
+            } => match raw_mcd_fisher(n, dim, subset_size) {
+                Ok((f, scale)) => f.tails(d2 / scale),
                 Err(_) => (f64::NAN, f64::NAN),
             },
         }
@@ -252,6 +326,14 @@ impl Reference {
                 Ok(self.max_squared_distance() * (1.0 - complement))
             }
             Reference::NewRowF { n, dim } => Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim)),
+            Reference::RawMcdF {
+                n,
+                dim,
+                subset_size,
+            } => {
+                let (f, scale) = raw_mcd_fisher(n, dim, subset_size)?;
+                Ok(f.isf(alpha)? * scale)
+            }
         }
     }
 }
@@ -271,6 +353,15 @@ fn beta(n: usize, dim: usize) -> Result<BetaDistribution> {
 fn fisher(n: usize, dim: usize) -> Result<FDistribution> {
     Reference::new_row(n, dim)?;
     FDistribution::new(dim as f64, n as f64 - dim as f64)
+}
+
+/// The F distribution of the Hardin–Rocke approximation and the scale
+/// `p m / (m − p + 1)` with `d² = scale · F`.
+fn raw_mcd_fisher(n: usize, dim: usize, subset_size: usize) -> Result<(FDistribution, f64)> {
+    let m = hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?;
+    let p = dim as f64;
+    let d2 = m - p + 1.0;
+    Ok((FDistribution::new(p, d2)?, p * m / d2))
 }
 
 /// `d² = scale · F` for new rows: `scale = p(n+1)(n−1) / (n(n−p))`.

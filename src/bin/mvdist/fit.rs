@@ -4,6 +4,8 @@ use crate::output::write_atomically;
 use crate::table::{read_table, ColumnChoice};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
+use mvdist::robust::McdSettings;
+use mvdist::shrinkage::OasFormula;
 use mvdist::{DistanceModel, Divisor, Error};
 use std::path::{Path, PathBuf};
 
@@ -11,6 +13,12 @@ use std::path::{Path, PathBuf};
 pub enum EstimatorChoice {
     /// Sample mean and covariance (n − 1 divisor).
     Classical,
+    /// Sample mean and Ledoit–Wolf shrinkage covariance (works with fewer rows than variables).
+    LedoitWolf,
+    /// Sample mean and OAS shrinkage covariance (Chen et al. 2010, Eq. 23).
+    Oas,
+    /// Reweighted minimum covariance determinant (FastMCD): robust to outlying rows.
+    Mcd,
 }
 
 #[derive(clap::Args)]
@@ -23,6 +31,13 @@ pub struct FitArgs {
     /// How to estimate location and scatter.
     #[arg(long, value_enum, default_value = "classical")]
     pub estimator: EstimatorChoice,
+    /// With --estimator mcd: fraction of rows in the MCD subset, h = floor(FRACTION·n)
+    /// (default h = floor((n + p + 1)/2), the most robust choice).
+    #[arg(long, value_name = "FRACTION")]
+    pub support: Option<f64>,
+    /// With --estimator mcd: seed of the random subset draws (equal seeds, equal models).
+    #[arg(long, value_name = "N")]
+    pub seed: Option<u64>,
     #[command(flatten)]
     pub columns: ColumnChoice,
     /// Leave out rows with a missing value (empty, NA, NaN) instead of stopping.
@@ -50,6 +65,23 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
             path.display(),
             name(column)
         ),
+        Error::ExactFit { hyperplane } => {
+            let terms: Vec<String> = hyperplane
+                .coefficients()
+                .iter()
+                .enumerate()
+                .filter(|(_, a)| a.abs() > 1e-9)
+                .map(|(j, a)| format!("{a:.6}·{}", name(j)))
+                .collect();
+            format!(
+                "{}: exact fit: {} of {rows} rows satisfy {} = {:.6} (at least {} are needed for a robust fit); leave out one of these columns with --exclude, or check why so many rows are tied",
+                path.display(),
+                hyperplane.rows().len(),
+                terms.join(" + "),
+                hyperplane.offset(),
+                hyperplane.subset_size()
+            )
+        }
         Error::Collinear { column, .. } => format!(
             "{}: column {} is a linear combination of the columns before it ({}); leave it out with --exclude",
             path.display(),
@@ -63,10 +95,25 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
 pub fn run(args: &FitArgs) -> Result<(), CliError> {
     let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
     let p = table.names.len();
+    let is_mcd = matches!(args.estimator, EstimatorChoice::Mcd);
+    if !is_mcd && (args.support.is_some() || args.seed.is_some()) {
+        return Err(CliError(
+            "--support and --seed apply to --estimator mcd only".into(),
+        ));
+    }
+    let rows = mvdist::data::rows_from_slice(&table.data, p)?;
     let model = match args.estimator {
-        EstimatorChoice::Classical => {
-            let rows = mvdist::data::rows_from_slice(&table.data, p)?;
-            DistanceModel::fit_with_divisor(rows, Divisor::Unbiased)
+        EstimatorChoice::Classical => DistanceModel::fit_with_divisor(rows, Divisor::Unbiased),
+        EstimatorChoice::LedoitWolf => DistanceModel::fit_ledoit_wolf(rows),
+        EstimatorChoice::Oas => DistanceModel::fit_oas(rows, OasFormula::Published),
+        EstimatorChoice::Mcd => {
+            let mut settings = McdSettings::default().with_seed(args.seed.unwrap_or(0));
+            if let Some(f) = args.support {
+                settings = settings
+                    .with_support_fraction(f)
+                    .map_err(|e| CliError(format!("--support {f}: {e}")))?;
+            }
+            DistanceModel::fit_mcd(rows, &settings)
         }
     }
     .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?;
