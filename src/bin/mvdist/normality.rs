@@ -26,13 +26,6 @@ pub struct NormalityArgs {
 
 pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
     let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    if table.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            table.skipped,
-            args.data.display()
-        );
-    }
     let options = NormalityOptions::default()
         .with_alpha(args.alpha)
         .map_err(|e| CliError(format!("--alpha: {e}")))?;
