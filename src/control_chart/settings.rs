@@ -34,6 +34,7 @@ pub enum SignalRemoval {
 /// reported as removed in round 0.
 #[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
+#[allow(clippy::large_enum_variant)]
 pub enum PhaseOneStart {
     /// Estimate from every row.
     #[default]

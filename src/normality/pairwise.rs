@@ -37,7 +37,9 @@ const LOG2_E: f64 = std::f64::consts::LOG2_E;
 /// `1.5 · 2⁵²`: adding it rounds to an integer held in the low mantissa bits.
 const SHIFTER: f64 = 6_755_399_441_055_744.0;
 /// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹`.
+#[allow(clippy::excessive_precision)]
 const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
+#[allow(clippy::excessive_precision)]
 const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
 /// Below this argument the result is reported as 0.
 const EXP_LOWEST: f64 = -708.0;
