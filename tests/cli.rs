@@ -451,7 +451,13 @@ fn normality_json_matches_the_library() {
     let out = mvdist()
         .arg("normality")
         .arg(&data)
-        .args(["--label", "flower", "--json", "--columns", "sepal_length,sepal_width"])
+        .args([
+            "--label",
+            "flower",
+            "--json",
+            "--columns",
+            "sepal_length,sepal_width",
+        ])
         .assert()
         .success()
         .get_output()

@@ -145,10 +145,20 @@ fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
     };
     let unit = |v: f64| v.is_nan() || (0.0..=1.0).contains(&v);
     if let Ok(m) = Mardia::compute(x) {
-        for v in [m.skewness(), m.kurtosis(), m.skewness_statistic(), m.corrected_skewness_statistic(), m.kurtosis_statistic()] {
+        for v in [
+            m.skewness(),
+            m.kurtosis(),
+            m.skewness_statistic(),
+            m.corrected_skewness_statistic(),
+            m.kurtosis_statistic(),
+        ] {
             assert!(v.is_finite(), "Mardia gave {v}");
         }
-        assert!(unit(m.skewness_p_value()) && unit(m.kurtosis_p_value()) && unit(m.corrected_skewness_p_value()));
+        assert!(
+            unit(m.skewness_p_value())
+                && unit(m.kurtosis_p_value())
+                && unit(m.corrected_skewness_p_value())
+        );
     }
     for beta in [None, Some(0.5), Some(0.0), Some(f64::NAN), Some(1e300)] {
         let r = match beta {
@@ -165,9 +175,15 @@ fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
     if let Ok(d) = DoornikHansen::compute(x) {
         assert!(d.statistic().is_finite() && (0.0..=1.0).contains(&d.p_value()));
     }
-    ok_finite_all(ChiSquareQq::compute(x).as_ref().map(|q| q.theoretical().iter().chain(q.observed())));
+    ok_finite_all(
+        ChiSquareQq::compute(x)
+            .as_ref()
+            .map(|q| q.theoretical().iter().chain(q.observed())),
+    );
     if let Ok(shapes) = VariableShape::of_columns(x) {
-        assert!(shapes.iter().all(|s| s.skewness.is_finite() && s.kurtosis.is_finite()));
+        assert!(shapes
+            .iter()
+            .all(|s| s.skewness.is_finite() && s.kurtosis.is_finite()));
     }
     for v in [values, &values[..values.len().min(3)]] {
         if let Ok(sw) = ShapiroWilk::compute(v) {
@@ -179,7 +195,10 @@ fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
         if let Ok(options) = NormalityOptions::default().with_alpha(alpha) {
             if let Ok(report) = NormalityReport::compute(x, &options) {
                 let json = serde_json::to_string(&report).unwrap_or_default();
-                assert!(serde_json::from_str::<NormalityReport>(&json).is_ok(), "{json}");
+                assert!(
+                    serde_json::from_str::<NormalityReport>(&json).is_ok(),
+                    "{json}"
+                );
             }
         }
     }

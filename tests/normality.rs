@@ -48,15 +48,32 @@ fn shapiro_wilk_matches_scipy_from_3_to_5000_rows() {
             worst_p = (sw.p_value() - p).abs();
             worst_case = name;
         }
-        assert!((sw.statistic() - w).abs() < 1e-6, "{name}: W {} vs {w}", sw.statistic());
-        assert!((sw.p_value() - p).abs() < 1e-6, "{name}: p {} vs {p}", sw.p_value());
+        assert!(
+            (sw.statistic() - w).abs() < 1e-6,
+            "{name}: W {} vs {w}",
+            sw.statistic()
+        );
+        assert!(
+            (sw.p_value() - p).abs() < 1e-6,
+            "{name}: p {} vs {p}",
+            sw.p_value()
+        );
         // Tiny p-values also agree relatively.
         if p > 1e-300 {
-            assert!(rel(sw.p_value(), p) < 1e-5, "{name}: p {} vs {p}", sw.p_value());
+            assert!(
+                rel(sw.p_value(), p) < 1e-5,
+                "{name}: p {} vs {p}",
+                sw.p_value()
+            );
         }
         if let Some(exact) = case.get("exact_p_value") {
             // mpmath, 50 digits: scipy's p for W ≈ 1 carries the rounding of 1 − W.
-            assert!((sw.p_value() - num(exact)).abs() < 1e-14, "{name}: {} vs exact {}", sw.p_value(), num(exact));
+            assert!(
+                (sw.p_value() - num(exact)).abs() < 1e-14,
+                "{name}: {} vs exact {}",
+                sw.p_value(),
+                num(exact)
+            );
             assert!((sw.statistic() - num(&case["exact_w"])).abs() < 1e-15);
         }
         sizes.push(x.len());
@@ -64,7 +81,9 @@ fn shapiro_wilk_matches_scipy_from_3_to_5000_rows() {
     for n in [3, 4, 5, 11, 12, 20, 100, 1000, 5000] {
         assert!(sizes.contains(&n), "no fixture with n = {n}");
     }
-    eprintln!("Shapiro-Wilk vs scipy: max |ΔW| = {worst_w:e}, max |Δp| = {worst_p:e} ({worst_case})");
+    eprintln!(
+        "Shapiro-Wilk vs scipy: max |ΔW| = {worst_w:e}, max |Δp| = {worst_p:e} ({worst_case})"
+    );
 }
 
 #[test]
@@ -96,17 +115,77 @@ fn mardia_matches_numpy_double_sum() {
         let x = matrix(&case["data"]);
         let r = &case["mardia"];
         let m = Mardia::compute(x.view()).unwrap();
-        close(m.skewness(), num(&r["b1p"]), 0.0, 1e-11, &format!("{name} b1p"));
-        close(m.kurtosis(), num(&r["b2p"]), 0.0, 1e-12, &format!("{name} b2p"));
-        close(m.skewness_statistic(), num(&r["skewness_statistic"]), 0.0, 1e-11, &name);
+        close(
+            m.skewness(),
+            num(&r["b1p"]),
+            0.0,
+            1e-11,
+            &format!("{name} b1p"),
+        );
+        close(
+            m.kurtosis(),
+            num(&r["b2p"]),
+            0.0,
+            1e-12,
+            &format!("{name} b2p"),
+        );
+        close(
+            m.skewness_statistic(),
+            num(&r["skewness_statistic"]),
+            0.0,
+            1e-11,
+            &name,
+        );
         assert_eq!(m.skewness_degrees_of_freedom(), num(&r["skewness_dof"]));
-        close(m.skewness_p_value(), num(&r["skewness_p_value"]), 1e-300, 1e-8, &format!("{name} skew p"));
-        close(m.corrected_skewness_statistic(), num(&r["corrected_skewness_statistic"]), 0.0, 1e-11, &name);
-        close(m.corrected_skewness_p_value(), num(&r["corrected_skewness_p_value"]), 1e-300, 1e-8, &format!("{name} corrected p"));
-        close(m.kurtosis_null_mean(), num(&r["kurtosis_mean"]), 0.0, 1e-14, &name);
-        close(m.kurtosis_null_variance(), num(&r["kurtosis_variance"]), 0.0, 1e-14, &name);
-        close(m.kurtosis_statistic(), num(&r["kurtosis_z"]), 1e-10, 1e-10, &format!("{name} kurtosis z"));
-        close(m.kurtosis_p_value(), num(&r["kurtosis_p_value"]), 1e-300, 1e-8, &format!("{name} kurtosis p"));
+        close(
+            m.skewness_p_value(),
+            num(&r["skewness_p_value"]),
+            1e-300,
+            1e-8,
+            &format!("{name} skew p"),
+        );
+        close(
+            m.corrected_skewness_statistic(),
+            num(&r["corrected_skewness_statistic"]),
+            0.0,
+            1e-11,
+            &name,
+        );
+        close(
+            m.corrected_skewness_p_value(),
+            num(&r["corrected_skewness_p_value"]),
+            1e-300,
+            1e-8,
+            &format!("{name} corrected p"),
+        );
+        close(
+            m.kurtosis_null_mean(),
+            num(&r["kurtosis_mean"]),
+            0.0,
+            1e-14,
+            &name,
+        );
+        close(
+            m.kurtosis_null_variance(),
+            num(&r["kurtosis_variance"]),
+            0.0,
+            1e-14,
+            &name,
+        );
+        close(
+            m.kurtosis_statistic(),
+            num(&r["kurtosis_z"]),
+            1e-10,
+            1e-10,
+            &format!("{name} kurtosis z"),
+        );
+        close(
+            m.kurtosis_p_value(),
+            num(&r["kurtosis_p_value"]),
+            1e-300,
+            1e-8,
+            &format!("{name} kurtosis p"),
+        );
     }
 }
 
@@ -120,10 +199,28 @@ fn henze_zirkler_matches_numpy_double_sum() {
         let r = &case["henze_zirkler"];
         let h = HenzeZirkler::compute(x.view()).unwrap();
         close(h.smoothing(), num(&r["beta"]), 0.0, 1e-15, &name);
-        close(h.statistic(), num(&r["statistic"]), 1e-11, 1e-11, &format!("{name} T"));
+        close(
+            h.statistic(),
+            num(&r["statistic"]),
+            1e-11,
+            1e-11,
+            &format!("{name} T"),
+        );
         close(h.null_mean(), num(&r["null_mean"]), 0.0, 1e-13, &name);
-        close(h.null_variance(), num(&r["null_variance"]), 0.0, 1e-11, &name);
-        close(h.p_value(), num(&r["p_value"]), 1e-300, 1e-8, &format!("{name} p"));
+        close(
+            h.null_variance(),
+            num(&r["null_variance"]),
+            0.0,
+            1e-11,
+            &name,
+        );
+        close(
+            h.p_value(),
+            num(&r["p_value"]),
+            1e-300,
+            1e-8,
+            &format!("{name} p"),
+        );
     }
 }
 
@@ -136,15 +233,45 @@ fn royston_matches_numpy_with_scipy_shapiro() {
         let x = matrix(&case["data"]);
         let r = &case["royston"];
         let h = RoystonH::compute(x.view()).unwrap();
-        close(h.mean_transformed_correlation(), num(&r["mean_transformed_correlation"]), 1e-12, 1e-9, &name);
-        close(h.equivalent_degrees_of_freedom(), num(&r["equivalent_dof"]), 0.0, 1e-10, &name);
+        close(
+            h.mean_transformed_correlation(),
+            num(&r["mean_transformed_correlation"]),
+            1e-12,
+            1e-9,
+            &name,
+        );
+        close(
+            h.equivalent_degrees_of_freedom(),
+            num(&r["equivalent_dof"]),
+            0.0,
+            1e-10,
+            &name,
+        );
         // scipy's per-variable p-values differ from ours by about 1e-9
         // relative (its normal quantiles are the 7-digit AS 241 PPND7).
-        close(h.statistic(), num(&r["statistic"]), 1e-8, 1e-7, &format!("{name} H"));
-        close(h.p_value(), num(&r["p_value"]), 1e-300, 1e-6, &format!("{name} p"));
+        close(
+            h.statistic(),
+            num(&r["statistic"]),
+            1e-8,
+            1e-7,
+            &format!("{name} H"),
+        );
+        close(
+            h.p_value(),
+            num(&r["p_value"]),
+            1e-300,
+            1e-6,
+            &format!("{name} p"),
+        );
         for (j, sw) in h.per_variable().iter().enumerate() {
             close(sw.statistic(), num(&r["shapiro_w"][j]), 1e-8, 0.0, &name);
-            close(sw.p_value(), num(&r["shapiro_p_value"][j]), 1e-8, 1e-6, &name);
+            close(
+                sw.p_value(),
+                num(&r["shapiro_p_value"][j]),
+                1e-8,
+                1e-6,
+                &name,
+            );
         }
     }
 }
@@ -165,9 +292,21 @@ fn doornik_hansen_matches_numpy() {
         for (a, b) in d.kurtosis_scores().iter().zip(vector(&r["kurtosis_z"])) {
             close(*a, b, 1e-10, 1e-10, &format!("{name} z2"));
         }
-        close(d.statistic(), num(&r["statistic"]), 0.0, 1e-10, &format!("{name} E"));
+        close(
+            d.statistic(),
+            num(&r["statistic"]),
+            0.0,
+            1e-10,
+            &format!("{name} E"),
+        );
         assert_eq!(d.degrees_of_freedom(), num(&r["dof"]));
-        close(d.p_value(), num(&r["p_value"]), 1e-300, 1e-8, &format!("{name} p"));
+        close(
+            d.p_value(),
+            num(&r["p_value"]),
+            1e-300,
+            1e-8,
+            &format!("{name} p"),
+        );
     }
 }
 
@@ -181,17 +320,43 @@ fn per_variable_shapes_and_qq_match_numpy() {
         let shapes = VariableShape::of_columns(x.view()).unwrap();
         let r = &case["per_variable"];
         for (j, s) in shapes.iter().enumerate() {
-            close(s.skewness, num(&r["skewness"][j]), 1e-12, 1e-11, &format!("{name} skew {j}"));
-            close(s.kurtosis, num(&r["kurtosis"][j]), 0.0, 1e-12, &format!("{name} kurt {j}"));
+            close(
+                s.skewness,
+                num(&r["skewness"][j]),
+                1e-12,
+                1e-11,
+                &format!("{name} skew {j}"),
+            );
+            close(
+                s.kurtosis,
+                num(&r["kurtosis"][j]),
+                0.0,
+                1e-12,
+                &format!("{name} kurt {j}"),
+            );
             let sw = s.shapiro_wilk.unwrap();
-            close(sw.p_value(), num(&case["royston"]["shapiro_p_value"][j]), 1e-8, 1e-6, &name);
+            close(
+                sw.p_value(),
+                num(&case["royston"]["shapiro_p_value"][j]),
+                1e-8,
+                1e-6,
+                &name,
+            );
         }
         if let Some(q) = case.get("qq") {
             let qq = ChiSquareQq::compute(x.view()).unwrap();
-            for (a, b) in qq.theoretical().iter().zip(vector(&q["chi_square_quantiles"])) {
+            for (a, b) in qq
+                .theoretical()
+                .iter()
+                .zip(vector(&q["chi_square_quantiles"]))
+            {
                 close(*a, b, 0.0, 1e-11, &format!("{name} quantile"));
             }
-            for (a, b) in qq.observed().iter().zip(vector(&q["sorted_squared_distances"])) {
+            for (a, b) in qq
+                .observed()
+                .iter()
+                .zip(vector(&q["sorted_squared_distances"]))
+            {
                 close(*a, b, 1e-12, 1e-11, &format!("{name} d2"));
             }
         }
@@ -234,13 +399,21 @@ fn report_skips_tests_that_do_not_apply() {
     // pairwise limit of 1000 Henze–Zirkler is skipped too.
     let mut rng = Rng(11);
     let x = Array2::from_shape_fn((6000, 3), |_| rng.normal());
-    let options = NormalityOptions::default().with_pairwise_row_limit(1000).unwrap();
+    let options = NormalityOptions::default()
+        .with_pairwise_row_limit(1000)
+        .unwrap();
     let report = NormalityReport::compute(x.view(), &options).unwrap();
     for t in [NormalityTest::RoystonH, NormalityTest::HenzeZirkler] {
-        assert!(matches!(report.tests.iter().find(|o| o.test() == t), Some(TestOutcome::NotComputed(_))));
+        assert!(matches!(
+            report.tests.iter().find(|o| o.test() == t),
+            Some(TestOutcome::NotComputed(_))
+        ));
     }
     assert!(report.summary(NormalityTest::DoornikHansen).is_some());
-    assert!(report.per_variable.iter().all(|v| v.shapiro_wilk_w.is_none()));
+    assert!(report
+        .per_variable
+        .iter()
+        .all(|v| v.shapiro_wilk_w.is_none()));
     assert!(report.shapiro_wilk_not_computed.is_some());
     let json = serde_json::to_string(&report).unwrap();
     assert!(json.contains("\"not_computed\""));
@@ -266,11 +439,20 @@ fn degenerate_input_is_a_typed_error() {
         ("royston", |x| RoystonH::compute(x).map(|_| ())),
         ("doornik_hansen", |x| DoornikHansen::compute(x).map(|_| ())),
         ("qq", |x| ChiSquareQq::compute(x).map(|_| ())),
-        ("report", |x| NormalityReport::compute(x, &NormalityOptions::default()).map(|_| ())),
+        ("report", |x| {
+            NormalityReport::compute(x, &NormalityOptions::default()).map(|_| ())
+        }),
     ];
     for (name, check) in checks {
-        assert_eq!(check(constant.view()), Err(Error::ZeroVariance { column: 1 }), "{name}");
-        assert!(matches!(check(wide.view()), Err(Error::TooFewRows { rows: 3, .. })), "{name}");
+        assert_eq!(
+            check(constant.view()),
+            Err(Error::ZeroVariance { column: 1 }),
+            "{name}"
+        );
+        assert!(
+            matches!(check(wide.view()), Err(Error::TooFewRows { rows: 3, .. })),
+            "{name}"
+        );
     }
     assert_eq!(
         VariableShape::of_columns(constant.view()).unwrap_err(),
@@ -279,13 +461,21 @@ fn degenerate_input_is_a_typed_error() {
     // Mardia's kurtosis variance needs n ≥ p + 2.
     let mut rng = Rng(5);
     let just = Array2::from_shape_fn((4, 3), |_| rng.normal());
-    assert!(matches!(Mardia::compute(just.view()), Err(Error::TooFewRows { needed: 5, .. })));
+    assert!(matches!(
+        Mardia::compute(just.view()),
+        Err(Error::TooFewRows { needed: 5, .. })
+    ));
     // More than 5000 rows for the Shapiro–Wilk-based tests.
     let mut rng = Rng(3);
     let big = Array2::from_shape_fn((5001, 2), |_| rng.normal());
-    assert!(matches!(RoystonH::compute(big.view()), Err(Error::InvalidParameter { .. })));
+    assert!(matches!(
+        RoystonH::compute(big.view()),
+        Err(Error::InvalidParameter { .. })
+    ));
     assert!(ShapiroWilkCoefficients::new(5001).is_err());
-    assert!(VariableShape::of_columns(big.view()).unwrap()[0].shapiro_wilk.is_none());
+    assert!(VariableShape::of_columns(big.view()).unwrap()[0]
+        .shapiro_wilk
+        .is_none());
     assert!(HenzeZirkler::compute_with_smoothing(big.view(), 0.0).is_err());
     assert!(NormalityOptions::default().with_alpha(1.0).is_err());
 }
@@ -293,7 +483,11 @@ fn degenerate_input_is_a_typed_error() {
 /// `b₁,ₚ` by its definition: `n⁻² Σ_{i,j} (z_iᵀ z_j)³` over whitened rows.
 fn skewness_by_double_sum(x: ArrayView2<'_, f64>) -> f64 {
     let model = DistanceModel::fit_with_divisor(x, Divisor::MaximumLikelihood).unwrap();
-    let z = model.whitener(WhiteningKind::Cholesky).unwrap().whiten(x).unwrap();
+    let z = model
+        .whitener(WhiteningKind::Cholesky)
+        .unwrap()
+        .whiten(x)
+        .unwrap();
     let g = z.dot(&z.t());
     let n = x.nrows() as f64;
     g.iter().map(|v| v * v * v).sum::<f64>() / (n * n)

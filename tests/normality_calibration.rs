@@ -106,9 +106,15 @@ fn print_rates(title: &str, rates: &[f64; 6]) {
 fn size_is_close_to_alpha_under_normality() {
     for (n, p, seed) in [(50, 2, 1_000_000), (200, 5, 2_000_000)] {
         let rates = rejection_rates(Law::Normal, n, p, 2000, seed);
-        print_rates(&format!("size at alpha = 0.05, normal rows, n = {n}, p = {p}, 2000 replications"), &rates);
+        print_rates(
+            &format!("size at alpha = 0.05, normal rows, n = {n}, p = {p}, 2000 replications"),
+            &rates,
+        );
         for (name, r) in NAMES.iter().zip(rates) {
-            assert!((0.025..=0.075).contains(&r), "{name} at ({n}, {p}): rejection rate {r}");
+            assert!(
+                (0.025..=0.075).contains(&r),
+                "{name} at ({n}, {p}): rejection rate {r}"
+            );
         }
     }
 }
@@ -116,9 +122,15 @@ fn size_is_close_to_alpha_under_normality() {
 #[test]
 #[ignore = "simulation; run in release mode with --ignored"]
 fn power_against_heavy_tails_and_skewness() {
-    for (law, title) in [(Law::StudentT3, "multivariate t, 3 df"), (Law::Lognormal, "multivariate lognormal")] {
+    for (law, title) in [
+        (Law::StudentT3, "multivariate t, 3 df"),
+        (Law::Lognormal, "multivariate lognormal"),
+    ] {
         let rates = rejection_rates(law, 200, 3, 1000, 3_000_000);
-        print_rates(&format!("power at alpha = 0.05, {title}, n = 200, p = 3, 1000 replications"), &rates);
+        print_rates(
+            &format!("power at alpha = 0.05, {title}, n = 200, p = 3, 1000 replications"),
+            &rates,
+        );
         for (name, r) in NAMES.iter().zip(rates) {
             assert!(r > 0.9, "{name} against {title}: rejection rate {r}");
         }

@@ -115,10 +115,7 @@ where
     if n * p < SEQUENTIAL_THRESHOLD || tasks <= 1 {
         (0..tasks).map(task).fold(init(), &merge)
     } else {
-        (0..tasks)
-            .into_par_iter()
-            .map(task)
-            .reduce(&init, &merge)
+        (0..tasks).into_par_iter().map(task).reduce(&init, &merge)
     }
 }
 

@@ -171,7 +171,11 @@ fn decorrelating_map(s: &[f64], p: usize) -> Result<Vec<f64>> {
     let mut c = vec![0.0; p * p];
     for i in 0..p {
         for j in 0..p {
-            c[i * p + j] = if i == j { 1.0 } else { v[i] * s[i * p + j] * v[j] };
+            c[i * p + j] = if i == j {
+                1.0
+            } else {
+                v[i] * s[i * p + j] * v[j]
+            };
         }
     }
     let (values, vectors) = linalg::symmetric_eigen(&c, p)

@@ -161,8 +161,12 @@ impl HenzeZirkler {
         let a = 1.0 + 2.0 * b2;
         let w = (1.0 + b2) * (1.0 + 3.0 * b2);
         2.0 * (1.0 + 4.0 * b2).powf(-p / 2.0)
-            + 2.0 * a.powf(-p) * (1.0 + 2.0 * p * b4 / (a * a) + 3.0 * p * (p + 2.0) * b8 / (4.0 * a.powi(4)))
-            - 4.0 * w.powf(-p / 2.0) * (1.0 + 3.0 * p * b4 / (2.0 * w) + p * (p + 2.0) * b8 / (2.0 * w * w))
+            + 2.0
+                * a.powf(-p)
+                * (1.0 + 2.0 * p * b4 / (a * a) + 3.0 * p * (p + 2.0) * b8 / (4.0 * a.powi(4)))
+            - 4.0
+                * w.powf(-p / 2.0)
+                * (1.0 + 3.0 * p * b4 / (2.0 * w) + p * (p + 2.0) * b8 / (2.0 * w * w))
     }
 
     /// Upper tail of `T_β` under the lognormal law with the null mean and

@@ -71,14 +71,20 @@ mod tests {
     fn quantiles_and_tails_match_scipy_special() {
         // Source: tests/fixtures/shapiro_wilk.json, scipy.special.ndtri and
         // ndtr (scipy 1.17.1), written by tests/reference/make_normality_fixtures.py.
-        let path = concat!(env!("CARGO_MANIFEST_DIR"), "/tests/fixtures/shapiro_wilk.json");
+        let path = concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/tests/fixtures/shapiro_wilk.json"
+        );
         let text = std::fs::read_to_string(path).unwrap();
         let f: serde_json::Value = serde_json::from_str(&text).unwrap();
         let num = |v: &serde_json::Value| v.as_f64().unwrap();
         for c in f["normal"]["quantile"].as_array().unwrap() {
             let (p, z) = (num(&c["p"]), num(&c["z"]));
             let got = quantile(p);
-            assert!((got - z).abs() <= 4e-16 * z.abs().max(1.0), "Φ⁻¹({p}) = {got} vs {z}");
+            assert!(
+                (got - z).abs() <= 4e-16 * z.abs().max(1.0),
+                "Φ⁻¹({p}) = {got} vs {z}"
+            );
         }
         for c in f["normal"]["upper_tail"].as_array().unwrap() {
             let (z, q) = (num(&c["z"]), num(&c["q"]));

@@ -32,9 +32,11 @@ const TILE: usize = 512;
 const LOG2_E: f64 = std::f64::consts::LOG2_E;
 /// `1.5 · 2⁵²`: adding it rounds to an integer held in the low mantissa bits.
 const SHIFTER: f64 = 6_755_399_441_055_744.0;
-/// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹`.
-const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
-const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+/// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹` (the high
+/// part has 32 trailing zero bits): `LN2_HI = 0.6931471803691238…`,
+/// `LN2_LO = ln 2 − LN2_HI = 1.9082149292705877…e-10`.
+const LN2_HI: f64 = f64::from_bits(0x3FE6_2E42_FEE0_0000);
+const LN2_LO: f64 = f64::from_bits(0x3DEA_39EF_3579_3C76);
 /// Below this argument the result is reported as 0.
 const EXP_LOWEST: f64 = -708.0;
 
@@ -224,7 +226,10 @@ mod tests {
         let mut worst: f64 = 0.0;
         let mut x: f64 = 0.0;
         while x > -708.0 {
-            for y in [x, x - 1e-3, x - 0.346_573_590_279_972_6].into_iter().filter(|&y| y >= -708.0) {
+            for y in [x, x - 1e-3, x - 0.346_573_590_279_972_6]
+                .into_iter()
+                .filter(|&y| y >= -708.0)
+            {
                 let want = y.exp();
                 for got in [exp_nonpositive::<false>(y), exp_nonpositive::<true>(y)] {
                     worst = worst.max((got - want).abs() / want);

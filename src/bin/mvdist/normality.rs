@@ -103,7 +103,12 @@ fn render(report: &NormalityReport, names: &[String], path: &std::path::Path) ->
                 );
             }
             TestOutcome::NotComputed(s) => {
-                let _ = writeln!(out, "{:<32} not computed: {}", s.test.title(), s.not_computed);
+                let _ = writeln!(
+                    out,
+                    "{:<32} not computed: {}",
+                    s.test.title(),
+                    s.not_computed
+                );
             }
         }
     }
@@ -124,15 +129,13 @@ fn render(report: &NormalityReport, names: &[String], path: &std::path::Path) ->
             name,
             v.skewness,
             v.kurtosis,
-            v.shapiro_wilk_w.map_or_else(|| "-".into(), |w| format!("{w:.5}")),
+            v.shapiro_wilk_w
+                .map_or_else(|| "-".into(), |w| format!("{w:.5}")),
             v.shapiro_wilk_p_value
                 .map_or_else(|| "-".into(), format_p_value),
         );
     }
-    let _ = writeln!(
-        out,
-        "(skewness 0 and kurtosis 3 for a normal population)"
-    );
+    let _ = writeln!(out, "(skewness 0 and kurtosis 3 for a normal population)");
     if let Some(why) = &report.shapiro_wilk_not_computed {
         let _ = writeln!(out, "Shapiro-Wilk not computed: {why}");
     }
