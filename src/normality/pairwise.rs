@@ -20,6 +20,7 @@
 //! *Elementary Functions: Algorithms and Implementation*, 3rd ed., 2016,
 //! ch. 11).
 
+use super::blocks::{fmadd, lane_sum};
 use rayon::prelude::*;
 
 /// Lanes per vector step.
@@ -64,15 +65,6 @@ impl TransposedRows {
             stride,
             dim,
         }
-    }
-}
-
-#[inline(always)]
-fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
     }
 }
 
@@ -142,8 +134,7 @@ fn row_sum<const FMA: bool>(
             acc[l] += c[l];
         }
     }
-    let lanes = ((acc[0] + acc[1]) + (acc[2] + acc[3])) + ((acc[4] + acc[5]) + (acc[6] + acc[7]));
-    lanes + rest.iter().sum::<f64>()
+    lane_sum(&acc) + rest.iter().sum::<f64>()
 }
 
 /// The sum over the pairs of one task: rows `lo..hi` against every later row.

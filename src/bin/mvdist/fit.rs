@@ -1,7 +1,7 @@
 //! `mvdist fit`: estimate location and scatter and write a model file.
 
 use crate::output::write_atomically;
-use crate::table::{read_table, ColumnChoice};
+use crate::table::{read_table_noting_skips, ColumnChoice};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
 use mvdist::{DistanceModel, Divisor, Error};
@@ -58,14 +58,7 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
 }
 
 pub fn run(args: &FitArgs) -> Result<(), CliError> {
-    let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    if table.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            table.skipped,
-            args.data.display()
-        );
-    }
+    let table = read_table_noting_skips(&args.data, &args.columns, args.skip_incomplete)?;
     let p = table.names.len();
     let model = match args.estimator {
         EstimatorChoice::Classical => {

@@ -1,7 +1,7 @@
 //! `mvdist normality`: multivariate normality checks on a CSV file.
 
 use crate::fit::explain_fit_error;
-use crate::table::{read_table, ColumnChoice};
+use crate::table::{read_table_noting_skips, ColumnChoice};
 use crate::CliError;
 use mvdist::normality::{format_p_value, NormalityOptions, NormalityReport, TestOutcome};
 use std::fmt::Write as _;
@@ -25,14 +25,7 @@ pub struct NormalityArgs {
 }
 
 pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
-    let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    if table.skipped > 0 {
-        eprintln!(
-            "mvdist: skipped {} incomplete row(s) of {}",
-            table.skipped,
-            args.data.display()
-        );
-    }
+    let table = read_table_noting_skips(&args.data, &args.columns, args.skip_incomplete)?;
     let options = NormalityOptions::default()
         .with_alpha(args.alpha)
         .map_err(|e| CliError(format!("--alpha: {e}")))?;

@@ -229,6 +229,23 @@ pub struct Table {
     pub skipped: usize,
 }
 
+/// [`read_table`], then a note on stderr if incomplete rows were left out.
+pub fn read_table_noting_skips(
+    path: &Path,
+    choice: &ColumnChoice,
+    skip_incomplete: bool,
+) -> Result<Table, CliError> {
+    let table = read_table(path, choice, skip_incomplete)?;
+    if table.skipped > 0 {
+        eprintln!(
+            "mvdist: skipped {} incomplete row(s) of {}",
+            table.skipped,
+            path.display()
+        );
+    }
+    Ok(table)
+}
+
 pub fn read_table(
     path: &Path,
     choice: &ColumnChoice,
