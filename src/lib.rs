@@ -50,7 +50,8 @@
 //!
 //! Every p-value and cutoff assumes that the reference rows are a sample
 //! from one multivariate normal population and that the model fits it.
-//! Check that assumption before relying on a threshold. A flag is evidence
+//! Check that assumption before relying on a threshold ([`normality`]
+//! has the usual tests). A flag is evidence
 //! that a row is unusual under the model, not a verdict that it is bad:
 //! decisions such as releasing a batch or raising an alarm belong to your
 //! local quality procedures and to qualified people.

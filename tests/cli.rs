@@ -1094,3 +1094,89 @@ fn robust_fit_errors() {
         "3 complete rows are too few for 4 variables",
     );
 }
+
+#[test]
+fn normality_prints_a_table_with_readings_and_a_caution() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    mvdist()
+        .arg("normality")
+        .arg(&data)
+        .args(["--label", "flower"])
+        .assert()
+        .success()
+        .stdout(
+            predicate::str::contains("150 rows × 4 variables")
+                .and(predicate::str::contains("Mardia skewness"))
+                .and(predicate::str::contains("Henze-Zirkler"))
+                .and(predicate::str::contains("Royston H"))
+                .and(predicate::str::contains("Doornik-Hansen"))
+                .and(predicate::str::contains("petal_width"))
+                .and(predicate::str::contains("does not show")),
+        );
+}
+
+#[test]
+fn normality_json_matches_the_library() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    let out = mvdist()
+        .arg("normality")
+        .arg(&data)
+        .args([
+            "--label",
+            "flower",
+            "--json",
+            "--columns",
+            "sepal_length,sepal_width",
+        ])
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    let report: mvdist::normality::NormalityReport =
+        serde_json::from_slice(&out).expect("the JSON is a report");
+    let x = common::matrix(&common::fixture("iris_covariance.json")["data"]);
+    let want = mvdist::normality::NormalityReport::compute(
+        x.slice(ndarray::s![.., 0..2]).to_owned().view(),
+        &mvdist::normality::NormalityOptions::default(),
+    )
+    .unwrap()
+    .with_variable_names(vec!["sepal_length".into(), "sepal_width".into()])
+    .unwrap();
+    assert_eq!(report, want);
+    let v: serde_json::Value = serde_json::from_slice(&out).unwrap();
+    assert_eq!(v["tests"][0]["test"], "mardia_skewness");
+    assert_eq!(v["per_variable"][1]["name"], "sepal_width");
+}
+
+#[test]
+fn normality_errors_name_the_column() {
+    let dir = TempDir::new().unwrap();
+    let constant = write(
+        dir.path(),
+        "c.csv",
+        "a,b,c\n1,5,2\n2,5,3\n4,5,1\n3,5,7\n0,5,2\n",
+    );
+    mvdist()
+        .arg("normality")
+        .arg(&constant)
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("column 'b' is constant"));
+    mvdist()
+        .arg("normality")
+        .arg(&constant)
+        .args(["--exclude", "b", "--alpha", "2"])
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("--alpha"));
+    let few = write(dir.path(), "f.csv", "a,b,c\n1,2,3\n2,1,5\n");
+    mvdist()
+        .arg("normality")
+        .arg(&few)
+        .assert()
+        .code(1)
+        .stderr(predicate::str::contains("too few for 3 variables"));
+}

@@ -208,7 +208,15 @@ fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
                 && unit(m.corrected_skewness_p_value())
         );
     }
-    for beta in [None, Some(0.5), Some(0.0), Some(f64::NAN), Some(1e300)] {
+    for beta in [
+        None,
+        Some(0.5),
+        Some(0.1),
+        Some(100.0),
+        Some(0.0),
+        Some(f64::NAN),
+        Some(1e300),
+    ] {
         let r = match beta {
             None => HenzeZirkler::compute(x),
             Some(b) => HenzeZirkler::compute_with_smoothing(x, b),

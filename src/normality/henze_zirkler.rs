@@ -36,8 +36,11 @@ use crate::whitening::WhiteningKind;
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 
-/// Allowed range of the smoothing parameter β.
-const SMOOTHING_RANGE: (f64, f64) = (1e-3, 1e3);
+/// Allowed range of the smoothing parameter β: outside it the null mean
+/// and variance lose their precision to cancellation (below) or the
+/// statistic carries no information (above). The recommended β is between
+/// about 0.7 and 2 for any practical `n` and `p`.
+const SMOOTHING_RANGE: (f64, f64) = (0.1, 100.0);
 
 /// The Henze–Zirkler statistic and its lognormal p-value; see the
 /// [module documentation](self).
@@ -90,12 +93,12 @@ impl HenzeZirkler {
     ///
     /// # Errors
     /// As [`compute`](Self::compute); [`Error::InvalidParameter`] unless
-    /// `1e-3 ≤ β ≤ 1e3`.
+    /// `0.1 ≤ β ≤ 100`.
     pub fn compute_with_smoothing(rows: ArrayView2<'_, f64>, smoothing: f64) -> Result<Self> {
         if !(smoothing >= SMOOTHING_RANGE.0 && smoothing <= SMOOTHING_RANGE.1) {
             return Err(Error::invalid(
                 "smoothing",
-                format!("β = {smoothing} is outside [1e-3, 1e3]"),
+                format!("β = {smoothing} is outside [0.1, 100]"),
             ));
         }
         let (n, p) = rows.dim();

@@ -31,7 +31,7 @@
 //!   skewness and kurtosis in testing normality and robustness studies.
 //!   *Sankhyā B* 36, 115–128.
 
-use super::blocks::{fit_ml, fold_mapped, RowMap, BLOCK};
+use super::blocks::{fit_ml, fmadd, fold_mapped, lane_sum, RowMap, BLOCK};
 use super::normal;
 use crate::calibration::ChiSquared;
 use crate::error::{Error, Result};
@@ -218,15 +218,6 @@ fn tensor_multiplicities(p: usize) -> impl Iterator<Item = f64> {
     })
 }
 
-#[inline(always)]
-fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
-    }
-}
-
 /// `acc[idx(a,b,c)] += Σ_r z_a z_b z_c` over a block and
 /// `acc[last] += Σ_r ‖z_r‖⁴`; `z` is `p × BLOCK` (zero-padded).
 #[inline(always)]
@@ -291,11 +282,6 @@ fn tensor_body<const FMA: bool>(z: &[f64], p: usize, acc: &mut [f64]) {
         }
     }
     acc[idx] += lane_sum(&s);
-}
-
-#[inline(always)]
-fn lane_sum(z: &[f64; 8]) -> f64 {
-    ((z[0] + z[1]) + (z[2] + z[3])) + ((z[4] + z[5]) + (z[6] + z[7]))
 }
 
 #[cfg(target_arch = "x86_64")]

@@ -1,14 +1,13 @@
 //! The pairwise Gaussian kernel sum `Σ_{i<j} exp(−h ‖z_i − z_j‖²)` without
 //! an `n × n` matrix.
 //!
-//! The whitened rows are held transposed (`p × n`, padded to a multiple of
-//! the lane count with far-away sentinel rows whose terms are exactly
-//! zero). Pairs are visited in tiles — a task of [`TASK_ROWS`] rows `i`
+//! The whitened rows are held transposed (`p × n`, each coordinate's
+//! values contiguous). Pairs are visited in tiles — a task of [`TASK_ROWS`] rows `i`
 //! against tiles of [`TILE`] rows `j > i` — so that a tile's coordinates
 //! stay in cache while every row of the task meets them. Each term's
 //! squared distance is formed directly from the coordinate differences (no
-//! cancellation for close pairs) and exponentiated eight lanes at a time by
-//! a branch-free exponential (below). Tasks run on the caller's rayon pool;
+//! cancellation for close pairs) and exponentiated by a branch-free
+//! exponential (below) in loops the compiler vectorizes. Tasks run on the caller's rayon pool;
 //! memory is the `O(n·p)` transposed copy.
 //!
 //! The exponential for non-positive arguments splits `x = k·ln 2 + r` with
@@ -21,6 +20,7 @@
 //! *Elementary Functions: Algorithms and Implementation*, 3rd ed., 2016,
 //! ch. 11).
 
+use super::blocks::{fmadd, lane_sum};
 use rayon::prelude::*;
 
 /// Lanes per vector step.
@@ -29,18 +29,15 @@ const LANES: usize = 8;
 const TASK_ROWS: usize = 64;
 /// Rows `j` per cache tile.
 const TILE: usize = 512;
-/// Coordinate of the padding rows: far enough that every term involving
-/// one is exactly zero, small enough that squares stay finite.
-const SENTINEL: f64 = 1e100;
 
 const LOG2_E: f64 = std::f64::consts::LOG2_E;
 /// `1.5 · 2⁵²`: adding it rounds to an integer held in the low mantissa bits.
 const SHIFTER: f64 = 6_755_399_441_055_744.0;
-/// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹`.
-#[allow(clippy::excessive_precision)]
-const LN2_HI: f64 = 6.931_471_803_691_238_164_90e-1;
-#[allow(clippy::excessive_precision)]
-const LN2_LO: f64 = 1.908_214_929_270_587_700_02e-10;
+/// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹` (the high
+/// part has 32 trailing zero bits): `LN2_HI = 0.6931471803691238…`,
+/// `LN2_LO = ln 2 − LN2_HI = 1.9082149292705877…e-10`.
+const LN2_HI: f64 = f64::from_bits(0x3FE6_2E42_FEE0_0000);
+const LN2_LO: f64 = f64::from_bits(0x3DEA_39EF_3579_3C76);
 /// Below this argument the result is reported as 0.
 const EXP_LOWEST: f64 = -708.0;
 
@@ -55,8 +52,8 @@ pub(crate) struct TransposedRows {
 impl TransposedRows {
     /// Transposes a row-major `n × p` slice.
     pub(crate) fn new(rows_major: &[f64], rows: usize, dim: usize) -> Self {
-        let stride = rows.div_ceil(TILE).max(1) * TILE;
-        let mut data = vec![SENTINEL; dim * stride];
+        let stride = rows;
+        let mut data = vec![0.0; dim * stride];
         for (i, row) in rows_major.chunks_exact(dim).enumerate() {
             for (k, &v) in row.iter().enumerate() {
                 data[k * stride + i] = v;
@@ -68,15 +65,6 @@ impl TransposedRows {
             stride,
             dim,
         }
-    }
-}
-
-#[inline(always)]
-fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
     }
 }
 
@@ -114,8 +102,10 @@ pub(crate) fn exp_nonpositive<const FMA: bool>(x: f64) -> f64 {
     }
 }
 
-/// `Σ_j exp(−h‖z_i − z_j‖²)` over `j` in `from..to` (multiples of
-/// [`LANES`]), lanes with `j < first_valid` excluded.
+/// `Σ_j exp(−h‖z_i − z_j‖²)` over `j` in `from..to` (at most [`TILE`]
+/// rows), with `d` as scratch. Each step is a plain loop over contiguous
+/// memory, so the compiler vectorizes it: squared distances, then their
+/// exponentials in place, then an eight-lane sum.
 #[inline(always)]
 fn row_sum<const FMA: bool>(
     z: &TransposedRows,
@@ -123,34 +113,28 @@ fn row_sum<const FMA: bool>(
     h: f64,
     from: usize,
     to: usize,
-    first_valid: usize,
+    d: &mut [f64],
 ) -> f64 {
-    let mut acc = [0.0f64; LANES];
-    let mut j = from;
-    while j < to {
-        let mut d = [0.0f64; LANES];
-        for (k, &c) in zi.iter().enumerate() {
-            let base = k * z.stride + j;
-            let col = &z.data[base..base + LANES];
-            for l in 0..LANES {
-                let diff = col[l] - c;
-                d[l] = fmadd::<FMA>(diff, diff, d[l]);
-            }
+    let d = &mut d[..to - from];
+    d.fill(0.0);
+    for (k, &c) in zi.iter().enumerate() {
+        let col = &z.data[k * z.stride + from..k * z.stride + to];
+        for (dj, &v) in d.iter_mut().zip(col) {
+            let diff = v - c;
+            *dj = fmadd::<FMA>(diff, diff, *dj);
         }
-        if j >= first_valid {
-            for l in 0..LANES {
-                acc[l] += exp_nonpositive::<FMA>(-h * d[l]);
-            }
-        } else {
-            for l in 0..LANES {
-                if j + l >= first_valid {
-                    acc[l] += exp_nonpositive::<FMA>(-h * d[l]);
-                }
-            }
-        }
-        j += LANES;
     }
-    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + ((acc[4] + acc[5]) + (acc[6] + acc[7]))
+    for dj in d.iter_mut() {
+        *dj = exp_nonpositive::<FMA>(-h * *dj);
+    }
+    let (chunks, rest) = d.as_chunks::<LANES>();
+    let mut acc = [0.0f64; LANES];
+    for c in chunks {
+        for l in 0..LANES {
+            acc[l] += c[l];
+        }
+    }
+    lane_sum(&acc) + rest.iter().sum::<f64>()
 }
 
 /// The sum over the pairs of one task: rows `lo..hi` against every later row.
@@ -158,23 +142,21 @@ fn row_sum<const FMA: bool>(
 fn task_body<const FMA: bool>(z: &TransposedRows, h: f64, lo: usize, hi: usize) -> f64 {
     let p = z.dim;
     let mut zi = vec![0.0; p];
+    let mut d = vec![0.0; TILE];
     let mut total = 0.0;
-    let first_tile = (lo + 1) / TILE * TILE;
-    let mut tile = first_tile;
+    let mut tile = (lo + 1) / TILE * TILE;
     while tile < z.rows {
-        let tile_end = (tile + TILE).min(z.stride);
-        let tile_end = tile_end.min(z.rows.div_ceil(LANES) * LANES);
+        let tile_end = (tile + TILE).min(z.rows);
         let mut tile_sum = 0.0;
         for i in lo..hi {
-            let first_valid = i + 1;
-            if first_valid >= tile_end {
+            let from = (i + 1).max(tile);
+            if from >= tile_end {
                 continue;
             }
             for (k, v) in zi.iter_mut().enumerate() {
                 *v = z.data[k * z.stride + i];
             }
-            let from = first_valid.max(tile) / LANES * LANES;
-            tile_sum += row_sum::<FMA>(z, &zi, h, from, tile_end, first_valid);
+            tile_sum += row_sum::<FMA>(z, &zi, h, from, tile_end, &mut d);
         }
         total += tile_sum;
         tile += TILE;

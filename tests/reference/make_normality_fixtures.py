@@ -45,44 +45,22 @@ The formulas (the papers are cited in src/normality/):
     transform of each kurtosis; E = z1'z1 + z2'z2 ~ chi2(2p).
 """
 
-import json
 import os
-import platform
 import sys
 
 import mpmath
 import numpy as np
-import scipy
 import scipy.special as sp
 import scipy.stats as st
-import sklearn
 from sklearn.datasets import (load_breast_cancer, load_diabetes, load_digits,
                               load_iris, load_wine)
 
 HERE = os.path.dirname(os.path.abspath(__file__))
-CRATE = os.path.dirname(os.path.dirname(HERE))
-OUT = os.path.join(CRATE, "tests", "fixtures")
+sys.path.insert(0, HERE)
+# The shared writer (exact float round-trip check) and version record.
+from make_fixtures import OUT, VERSIONS, write  # noqa: E402
+
 SCRIPT = "tests/reference/make_normality_fixtures.py"
-
-VERSIONS = {
-    "python": platform.python_version(),
-    "numpy": np.__version__,
-    "scipy": scipy.__version__,
-    "scikit-learn": sklearn.__version__,
-    "mpmath": mpmath.__version__,
-    "platform": platform.platform(),
-}
-
-
-def write(name, obj):
-    path = os.path.join(OUT, name)
-    with open(path, "w") as f:
-        json.dump(obj, f, allow_nan=False, separators=(",", ":"))
-        f.write("\n")
-    with open(path) as f:
-        back = json.load(f)
-    assert back == json.loads(json.dumps(obj, allow_nan=False)), name
-    print(f"wrote {path} ({os.path.getsize(path)} bytes)")
 
 
 def floats(a):
