@@ -53,7 +53,11 @@ fn contaminated(n: usize, p: usize, seed: u64) -> Array2<f64> {
         let mut prev = 0.0;
         for j in 0..p {
             let z = rng.normal();
-            let v = if j == 0 { z } else { 0.5 * prev + 0.75f64.sqrt() * z };
+            let v = if j == 0 {
+                z
+            } else {
+                0.5 * prev + 0.75f64.sqrt() * z
+            };
             prev = v;
             let shift = if i < bad { 6.0 } else { 0.0 };
             x[(i, j)] = j as f64 + sd[j] * (v + shift);
@@ -63,9 +67,8 @@ fn contaminated(n: usize, p: usize, seed: u64) -> Array2<f64> {
 }
 
 fn out_dir() -> std::path::PathBuf {
-    let target = std::env::var("CARGO_TARGET_DIR").unwrap_or_else(|_| {
-        format!("{}/target", env!("CARGO_MANIFEST_DIR"))
-    });
+    let target = std::env::var("CARGO_TARGET_DIR")
+        .unwrap_or_else(|_| format!("{}/target", env!("CARGO_MANIFEST_DIR")));
     let dir = std::path::Path::new(&target).join("robust_bench");
     std::fs::create_dir_all(&dir).expect("create target/robust_bench");
     dir
@@ -97,9 +100,15 @@ fn bench_mcd(c: &mut Criterion) {
             fit.subset_size(),
             fit.raw_log_determinant()
         ));
-        g.bench_with_input(BenchmarkId::from_parameter(format!("{n}x{p}")), &x, |b, x| {
-            b.iter(|| minimum_covariance_determinant(black_box(x.view()), &settings).expect("mcd"))
-        });
+        g.bench_with_input(
+            BenchmarkId::from_parameter(format!("{n}x{p}")),
+            &x,
+            |b, x| {
+                b.iter(|| {
+                    minimum_covariance_determinant(black_box(x.view()), &settings).expect("mcd")
+                })
+            },
+        );
     }
     g.finish();
     std::fs::write(

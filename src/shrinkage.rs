@@ -247,7 +247,11 @@ impl SampleMoments {
     fn shrunk(&self, intensity: f64, target: ShrinkageTarget) -> Result<Scatter> {
         let p = self.p;
         let mu = self.trace() / p as f64;
-        let mut m: Vec<f64> = self.covariance.iter().map(|v| (1.0 - intensity) * v).collect();
+        let mut m: Vec<f64> = self
+            .covariance
+            .iter()
+            .map(|v| (1.0 - intensity) * v)
+            .collect();
         for j in 0..p {
             m[j * p + j] += intensity
                 * match target {

@@ -432,7 +432,12 @@ fn fit_with_each_estimator_then_score() {
     let data = iris_csv(dir.path());
     for (estimator, extra, kind, reference) in [
         ("classical", vec![], "\"kind\": \"classical\"", "new-row F"),
-        ("ledoit-wolf", vec![], "\"kind\": \"ledoit_wolf\"", "new-row F"),
+        (
+            "ledoit-wolf",
+            vec![],
+            "\"kind\": \"ledoit_wolf\"",
+            "new-row F",
+        ),
         ("oas", vec![], "\"kind\": \"oas\"", "new-row F"),
         (
             "mcd",
@@ -452,11 +457,16 @@ fn fit_with_each_estimator_then_score() {
             .args(&extra)
             .assert()
             .success()
-            .stdout(predicate::str::contains(format!("fitted a {estimator} model on 150 rows")));
+            .stdout(predicate::str::contains(format!(
+                "fitted a {estimator} model on 150 rows"
+            )));
         let text = std::fs::read_to_string(&model).unwrap();
         assert!(text.contains(kind), "{estimator}: {text}");
         if !extra.is_empty() {
-            assert!(text.contains("\"seed\": 11") && text.contains("\"support_fraction\": 0.75"), "{text}");
+            assert!(
+                text.contains("\"seed\": 11") && text.contains("\"support_fraction\": 0.75"),
+                "{text}"
+            );
             assert!(text.contains("\"subset_size\": 112"), "{text}");
         }
         let out = dir.path().join(format!("scores_{estimator}.csv"));
@@ -524,5 +534,10 @@ fn robust_fit_errors() {
         .args(["--estimator", "ledoit-wolf"])
         .assert()
         .success();
-    fit_fails(&dir, Some(wide), &["--estimator", "mcd"], "3 complete rows are too few for 4 variables");
+    fit_fails(
+        &dir,
+        Some(wide),
+        &["--estimator", "mcd"],
+        "3 complete rows are too few for 4 variables",
+    );
 }

@@ -53,7 +53,10 @@ fn hardin_rocke_degrees_of_freedom_match_simulation() {
         .degrees_of_freedom()
         .unwrap();
     let observed = 2.0 / var;
-    assert!((observed / m - 1.0).abs() < 0.25, "2/Var = {observed}, m = {m}");
+    assert!(
+        (observed / m - 1.0).abs() < 0.25,
+        "2/Var = {observed}, m = {m}"
+    );
     let rate = beyond_hr as f64 / total as f64;
     let rate_chi2 = beyond_chi2 as f64 / total as f64;
     assert!((0.03..0.08).contains(&rate), "Hardin–Rocke rate {rate}");

@@ -93,7 +93,10 @@ fn scatter_error(s: &Array2<f64>, l: &Array2<f64>) -> (f64, f64) {
     let mut lo = f64::INFINITY;
     let mut hi = 0.0f64;
     for i in 0..m.nrows() {
-        let r: f64 = (0..m.ncols()).filter(|&j| j != i).map(|j| m[(i, j)].abs()).sum();
+        let r: f64 = (0..m.ncols())
+            .filter(|&j| j != i)
+            .map(|j| m[(i, j)].abs())
+            .sum();
         lo = lo.min(m[(i, i)] - r);
         hi = hi.max(m[(i, i)] + r);
     }
@@ -126,7 +129,9 @@ fn mcd_resists_planted_outliers() {
             let shift: Vec<f64> = {
                 let z = vec![1.0; p];
                 // L·z has Mahalanobis length ‖z‖ = 2; scale to 12 units.
-                (0..p).map(|i| 6.0 * (0..=i).map(|j| l[(i, j)] * z[j]).sum::<f64>()).collect()
+                (0..p)
+                    .map(|i| 6.0 * (0..=i).map(|j| l[(i, j)] * z[j]).sum::<f64>())
+                    .collect()
             };
             for i in 0..bad {
                 match kind {
@@ -140,20 +145,32 @@ fn mcd_resists_planted_outliers() {
                         let norm = z.iter().map(|v| v * v).sum::<f64>().sqrt();
                         let radius = 20.0 + 40.0 * rng.uniform();
                         for r in 0..p {
-                            x[(i, r)] = radius / norm * (0..=r).map(|j| l[(r, j)] * z[j]).sum::<f64>();
+                            x[(i, r)] =
+                                radius / norm * (0..=r).map(|j| l[(r, j)] * z[j]).sum::<f64>();
                         }
                     }
                 }
             }
-            let settings = if k == 0 { McdSettings::default() } else { settings(k as u64) };
+            let settings = if k == 0 {
+                McdSettings::default()
+            } else {
+                settings(k as u64)
+            };
             let robust = DistanceModel::fit_mcd(x.view(), &settings).unwrap();
             let classical = DistanceModel::fit(x.view()).unwrap();
             let loc_err = |m: &DistanceModel| sigma.squared_norm(m.location()).unwrap();
             let (lo, hi) = scatter_error(&robust.scatter().matrix().to_owned(), &l);
             let (clo, chi) = scatter_error(&classical.scatter().matrix().to_owned(), &l);
             let label = format!("{kind:?} {fraction}");
-            assert!(loc_err(&robust) <= 0.25, "{label}: robust location {}", loc_err(&robust));
-            assert!(lo >= 0.3 && hi <= 2.5, "{label}: robust scatter bounds [{lo}, {hi}]");
+            assert!(
+                loc_err(&robust) <= 0.25,
+                "{label}: robust location {}",
+                loc_err(&robust)
+            );
+            assert!(
+                lo >= 0.3 && hi <= 2.5,
+                "{label}: robust scatter bounds [{lo}, {hi}]"
+            );
             assert!(
                 loc_err(&classical) > 0.25 || clo < 0.3 || chi > 2.5,
                 "{label}: the classical estimate was not broken ({}, [{clo}, {chi}])",
@@ -162,7 +179,11 @@ fn mcd_resists_planted_outliers() {
             let cutoff = robust.cutoff(0.025, RowOrigin::InSample).unwrap();
             let d2 = robust.squared_distances(x.view()).unwrap();
             for i in 0..bad {
-                assert!(d2[i] > cutoff, "{label}: planted row {i} has d² {} ≤ {cutoff}", d2[i]);
+                assert!(
+                    d2[i] > cutoff,
+                    "{label}: planted row {i} has d² {} ≤ {cutoff}",
+                    d2[i]
+                );
             }
         }
     }

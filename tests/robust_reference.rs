@@ -63,7 +63,13 @@ fn shrinkage_matches_scikit_learn() {
     for name in SHRINKAGE_DATASETS {
         let d = &all[name];
         let x = matrix(&d["data"]);
-        check_fit(name, "ledoit_wolf", &ledoit_wolf(x.view()).unwrap(), d, &d["ledoit_wolf"]);
+        check_fit(
+            name,
+            "ledoit_wolf",
+            &ledoit_wolf(x.view()).unwrap(),
+            d,
+            &d["ledoit_wolf"],
+        );
         check_fit(
             name,
             "oas (sklearn)",
@@ -118,7 +124,10 @@ fn shrinkage_formulas_by_hand() {
     assert_eq!(lw.intensity(), 0.0);
     // OAS (Eq. 23) there: tr S = 1, tr S² = 1/2, p = 2, n = 4:
     // num = (1 − 1)·1/2 + 1 = 1, den = (4 + 1 − 1)(1/2 − 1/2) = 0 → ρ = 1.
-    assert_eq!(oas(x.view(), OasFormula::Published).unwrap().intensity(), 1.0);
+    assert_eq!(
+        oas(x.view(), OasFormula::Published).unwrap().intensity(),
+        1.0
+    );
 
     // Rows (0,0), (2,0), (0,2), (2,2), (1,1)·… : take x = (0,0), (2,2), (2,0), (0,2)
     // plus (1,1) → mean (1,1); deviations (−1,−1), (1,1), (1,−1), (−1,1), (0,0).
@@ -160,7 +169,10 @@ fn shrinkage_formulas_by_hand() {
 fn shrinkage_errors_are_typed() {
     use mvdist::Error;
     let one = array![[1.0, 2.0]];
-    assert!(matches!(ledoit_wolf(one.view()), Err(Error::TooFewRows { .. })));
+    assert!(matches!(
+        ledoit_wolf(one.view()),
+        Err(Error::TooFewRows { .. })
+    ));
     let constant = array![[1.0, 2.0], [1.0, 3.0], [1.0, 5.0]];
     assert!(matches!(
         oas(constant.view(), OasFormula::Published),
@@ -169,7 +181,11 @@ fn shrinkage_errors_are_typed() {
     let bad = array![[1.0, 2.0], [f64::NAN, 3.0], [2.0, 5.0]];
     assert!(matches!(
         ledoit_wolf(bad.view()),
-        Err(Error::NonFinite { row: 1, column: 0, .. })
+        Err(Error::NonFinite {
+            row: 1,
+            column: 0,
+            ..
+        })
     ));
     let x = array![[1.0, 2.0], [2.0, 3.0], [4.0, 1.0]];
     for bad in [-0.1, 1.1, f64::NAN] {
@@ -220,7 +236,10 @@ fn mcd_objective_is_no_worse_than_scikit_learn() {
         let reference = m["raw_log_det"].as_f64().unwrap();
         for seed in [0u64, 1, 2] {
             let fit = minimum_covariance_determinant(x.view(), &mcd_settings(d, seed)).unwrap();
-            assert_eq!(fit.subset_size(), m["subset_size"].as_u64().unwrap() as usize);
+            assert_eq!(
+                fit.subset_size(),
+                m["subset_size"].as_u64().unwrap() as usize
+            );
             let ours = fit.raw_log_determinant();
             assert!(
                 ours <= reference + 1e-9 * reference.abs(),
@@ -235,8 +254,17 @@ fn mcd_objective_is_no_worse_than_scikit_learn() {
             if fit.subset() == sk_subset.as_slice() {
                 let c = fit.consistency_factor();
                 let raw_ml = fit.raw_scatter().matrix().mapv(|v| v / c);
-                assert!(matrix_rel(&raw_ml, &matrix(&m["raw_covariance_ml"])) < 1e-10, "{name}");
-                assert!(matrix_rel(&fit.scatter().matrix().to_owned(), &matrix(&m["covariance"])) < 1e-10, "{name}");
+                assert!(
+                    matrix_rel(&raw_ml, &matrix(&m["raw_covariance_ml"])) < 1e-10,
+                    "{name}"
+                );
+                assert!(
+                    matrix_rel(
+                        &fit.scatter().matrix().to_owned(),
+                        &matrix(&m["covariance"])
+                    ) < 1e-10,
+                    "{name}"
+                );
                 let rw: Vec<usize> = m["reweighted_support"]
                     .as_array()
                     .unwrap()
@@ -270,7 +298,10 @@ fn mcd_models_record_the_estimator_and_pick_the_reference() {
         }
         other => panic!("{other:?}"),
     }
-    assert_eq!(model.reference(RowOrigin::New).unwrap(), Reference::chi_square(13).unwrap());
+    assert_eq!(
+        model.reference(RowOrigin::New).unwrap(),
+        Reference::chi_square(13).unwrap()
+    );
     let raw = fit.raw_model().unwrap();
     assert_eq!(
         raw.reference(RowOrigin::InSample).unwrap(),
@@ -282,7 +313,10 @@ fn mcd_models_record_the_estimator_and_pick_the_reference() {
     );
     // The model file round trip keeps the estimator.
     let json = serde_json::to_string(&raw).unwrap();
-    assert!(json.contains("\"kind\":\"mcd\"") && json.contains("\"stage\":\"raw\""), "{json}");
+    assert!(
+        json.contains("\"kind\":\"mcd\"") && json.contains("\"stage\":\"raw\""),
+        "{json}"
+    );
     assert_eq!(serde_json::from_str::<DistanceModel>(&json).unwrap(), raw);
     // Same seed, same fit; the default seed is deterministic too.
     let again = minimum_covariance_determinant(x.view(), &mcd_settings(d, 3)).unwrap();
@@ -298,7 +332,13 @@ fn mcd_errors_are_typed() {
         minimum_covariance_determinant(few.view(), &s),
         Err(Error::TooFewRows { .. })
     ));
-    let constant = Array2::from_shape_fn((20, 3), |(i, j)| if j == 1 { 4.0 } else { (i * (j + 3)) as f64 % 7.0 });
+    let constant = Array2::from_shape_fn((20, 3), |(i, j)| {
+        if j == 1 {
+            4.0
+        } else {
+            (i * (j + 3)) as f64 % 7.0
+        }
+    });
     assert!(matches!(
         minimum_covariance_determinant(constant.view(), &s),
         Err(Error::ZeroVariance { column: 1 })
@@ -316,7 +356,11 @@ fn mcd_errors_are_typed() {
     nan[(5, 1)] = f64::INFINITY;
     assert!(matches!(
         minimum_covariance_determinant(nan.view(), &s),
-        Err(Error::NonFinite { row: 5, column: 1, .. })
+        Err(Error::NonFinite {
+            row: 5,
+            column: 1,
+            ..
+        })
     ));
 }
 

@@ -48,7 +48,10 @@ use crate::error::{Error, Result};
 /// for `n` rows, `dim` variables and subset size `subset_size`.
 pub(crate) fn hardin_rocke_dof(n: usize, dim: usize, subset_size: usize) -> Result<f64> {
     if dim == 0 {
-        return Err(Error::invalid("dim", "the number of variables must be at least 1"));
+        return Err(Error::invalid(
+            "dim",
+            "the number of variables must be at least 1",
+        ));
     }
     if subset_size <= dim || subset_size > n {
         return Err(Error::invalid(
@@ -71,11 +74,7 @@ pub(crate) fn hardin_rocke_dof(n: usize, dim: usize, subset_size: usize) -> Resu
     let b1 = c * (c3 - c4) / (1.0 - a);
     let b2 = 0.5 + c / (1.0 - a) * (c3 - (q / p) * (c2 + 0.5 * (1.0 - a)));
     let v1 = (1.0 - a) * b1 * b1 * (a * (c * q / p - 1.0).powi(2) - 1.0)
-        - 2.0
-            * c3
-            * c
-            * c
-            * (3.0 * (b1 - p * b2).powi(2) + (p + 2.0) * b2 * (2.0 * b1 - p * b2));
+        - 2.0 * c3 * c * c * (3.0 * (b1 - p * b2).powi(2) + (p + 2.0) * b2 * (2.0 * b1 - p * b2));
     let v2 = nf * (b1 * (b1 - p * b2) * (1.0 - a)).powi(2) * c * c;
     let m_asy = 2.0 * v2 / (c * c * v1);
     let m = m_asy * (0.725 - 0.00663 * p - 0.0780 * nf.ln()).exp();

@@ -50,7 +50,7 @@ const MERGED_ROWS: usize = 1500;
 /// Candidates kept after each stage of the nested scheme.
 const KEEP: usize = 10;
 /// Candidates from the merged set iterated to convergence on all rows.
-const KEEP_FINAL: usize = 25;
+const KEEP_FINAL: usize = KEEP;
 /// Candidates iterated to convergence when there is no nesting (`n ≤ 600`,
 /// where a full-data C-step is cheap). The paper keeps 10; keeping 30
 /// makes the result depend less on the seed (on the wine data, 16 seeds:
@@ -140,7 +140,9 @@ pub(crate) fn subset_moments(
     let h = idx.len() as f64;
     let cov: Vec<f64> = acc.comoment.iter().map(|v| v / h).collect();
     if cov.iter().chain(acc.mean()).any(|v| !v.is_finite()) {
-        return Err(Error::Overflow { row: idx.first().copied().unwrap_or(0) });
+        return Err(Error::Overflow {
+            row: idx.first().copied().unwrap_or(0),
+        });
     }
     Ok((acc.mean().to_vec(), cov))
 }
@@ -193,9 +195,9 @@ fn concentrate(
         match estimate(x, &idx, &mut s.rows)? {
             Estimate::Singular(m, cov) => return Ok(Step::Singular { mean: m, cov }),
             Estimate::Regular(m, sc) => {
-                let improved = best.as_ref().is_none_or(|b| {
-                    sc.log_determinant() < b.scatter.log_determinant()
-                });
+                let improved = best
+                    .as_ref()
+                    .is_none_or(|b| sc.log_determinant() < b.scatter.log_determinant());
                 if !improved {
                     break;
                 }
@@ -228,9 +230,7 @@ fn start(
     let mut rest: Option<Vec<usize>> = None;
     loop {
         match estimate(x, &idx, &mut s.rows)? {
-            Estimate::Regular(mean, sc) => {
-                return concentrate(x, h, mean, sc, steps, s).map(Some)
-            }
+            Estimate::Regular(mean, sc) => return concentrate(x, h, mean, sc, steps, s).map(Some),
             Estimate::Singular(mean, cov) => {
                 if idx.len() >= h {
                     return Ok(Some(Step::Singular { mean, cov }));
@@ -381,9 +381,7 @@ fn univariate(x: ArrayView2<'_, f64>, h: usize) -> Result<Search> {
             mean,
             covariance,
         })),
-        Estimate::Singular(mean, _) => Ok(Search::ExactFit(hyperplane::univariate(
-            x, mean[0], h,
-        ))),
+        Estimate::Singular(mean, _) => Ok(Search::ExactFit(hyperplane::univariate(x, mean[0], h))),
     }
 }
 
@@ -424,7 +422,11 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
             h,
             plan.starts,
             0,
-            if plan.thorough { MAX_STEPS } else { SHORT_STEPS },
+            if plan.thorough {
+                MAX_STEPS
+            } else {
+                SHORT_STEPS
+            },
             KEEP_UNNESTED,
         )?
     } else {
@@ -438,14 +440,31 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
             let hi = (j + 1) * merged_rows / k;
             let sub = copy_rows(x, &merged_idx[lo..hi]);
             let h_sub = ceil_share(hi - lo, h, n).max(p + 1).min(hi - lo);
-            match run_starts(x, plan, sub.view(), h_sub, per_start, 1 + j as u64, SHORT_STEPS, KEEP)? {
+            match run_starts(
+                x,
+                plan,
+                sub.view(),
+                h_sub,
+                per_start,
+                1 + j as u64,
+                SHORT_STEPS,
+                KEEP,
+            )? {
                 Ok(c) => pooled.extend(c),
                 Err(hp) => return Ok(Search::ExactFit(hp)),
             }
         }
         let merged = copy_rows(x, &merged_idx);
         let h_merged = ceil_share(merged_rows, h, n).max(p + 1).min(merged_rows);
-        refine(x, plan, merged.view(), h_merged, pooled, SHORT_STEPS, KEEP_FINAL)?
+        refine(
+            x,
+            plan,
+            merged.view(),
+            h_merged,
+            pooled,
+            SHORT_STEPS,
+            KEEP_FINAL,
+        )?
     };
     let mut candidates = match stage {
         Ok(c) => c,
