@@ -258,7 +258,7 @@ proptest! {
         // Calibration with arbitrary parameters.
         for &v in values.iter().take(6) {
             for r in [Reference::chi_square(p), Reference::new_row(n, p), Reference::in_sample(n, p),
-                      Reference::raw_mcd(n, p, (n + p + 1) / 2), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
+                      Reference::raw_mcd(n, p, (n + p).div_ceil(2)), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
                       Ok(Reference::RawMcdF { n, dim: p, subset_size: v.abs().min(1e6) as usize }),
                       Ok(Reference::NewRowF { n, dim: p }), Ok(Reference::InSampleBeta { n, dim: p })].into_iter().flatten() {
                 {

@@ -236,7 +236,7 @@ impl McdSettings {
                 columns: p,
             });
         }
-        let lowest = (n + p + 1) / 2;
+        let lowest = (n + p).div_ceil(2); // ⌊(n + p + 1)/2⌋
         let h = match self.support_fraction {
             None => lowest,
             Some(f) => ((f * n as f64) + 1e-9).floor().max(0.0) as usize,
