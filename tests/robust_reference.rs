@@ -44,6 +44,7 @@ fn check_fit(
         .enumerate()
         .map(|(j, (a, b))| (a - b).abs() / want_cov[(j, j)].sqrt())
         .fold(0.0f64, f64::max);
+    eprintln!("{name} {what}: covariance {cov_err:.1e}, intensity {rho_err:.1e}");
     assert!(
         cov_err < 1e-10 && rho_err < 1e-10 && mean_err < 1e-12,
         "{name} {what}: covariance {cov_err:e}, intensity {rho_err:e} ({} vs {rho}), mean {mean_err:e}",

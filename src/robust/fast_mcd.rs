@@ -49,6 +49,8 @@ const MAX_SUBSETS: usize = 5;
 const MERGED_ROWS: usize = 1500;
 /// Candidates kept after each stage of the nested scheme.
 const KEEP: usize = 10;
+/// Candidates from the merged set iterated to convergence on all rows.
+const KEEP_FINAL: usize = KEEP;
 /// Candidates iterated to convergence when there is no nesting (`n ≤ 600`,
 /// where a full-data C-step is cheap). The paper keeps 10; keeping 30
 /// makes the result depend less on the seed (on the wine data, 16 seeds:
@@ -454,7 +456,15 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
         }
         let merged = copy_rows(x, &merged_idx);
         let h_merged = ceil_share(merged_rows, h, n).max(p + 1).min(merged_rows);
-        refine(x, plan, merged.view(), h_merged, pooled, SHORT_STEPS, KEEP)?
+        refine(
+            x,
+            plan,
+            merged.view(),
+            h_merged,
+            pooled,
+            SHORT_STEPS,
+            KEEP_FINAL,
+        )?
     };
     let mut candidates = match stage {
         Ok(c) => c,

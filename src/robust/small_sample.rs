@@ -17,9 +17,11 @@
 //! as we recall it from the paper.
 //!
 //! The factors are applied when `n ≤ 1000` (see [`SMALL_SAMPLE_MAX_ROWS`]);
-//! above that they are within a few tenths of a percent of 1 (measured with
-//! this code: see `tests/robust_calibration.rs`) and cost a multiple of the
-//! fit itself.
+//! above that the simulation would cost many times the fit itself. What is
+//! left uncorrected there is small: measured with this code at `p = 5`
+//! (`tests/robust_calibration.rs`), the raw and reweighted factors are
+//! 1.44 and 1.64 at `n = 30`, 1.13 and 1.14 at `n = 100`, and 1.012 and
+//! 1.013 at `n = 1000`.
 //!
 //! Reference: G. Pison, S. Van Aelst and G. Willems (2002). Small sample
 //! corrections for LTS and MCD. *Metrika* 55, 111–123.
