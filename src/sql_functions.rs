@@ -35,6 +35,7 @@ use datafusion::arrow::array::{Array, ArrayRef, BooleanArray, Float64Array, Stri
 use datafusion::arrow::compute::cast;
 use datafusion::arrow::datatypes::{DataType, Field, FieldRef};
 use datafusion::common::{DataFusionError, Result, ScalarValue};
+use datafusion::execution::FunctionRegistry;
 use datafusion::logical_expr::function::{AccumulatorArgs, StateFieldsArgs};
 use datafusion::logical_expr::{
     Accumulator, AggregateUDF, AggregateUDFImpl, ColumnarValue, ScalarFunctionArgs, ScalarUDF,
@@ -92,13 +93,40 @@ fn numeric_arguments(function: &str, types: &[DataType], skip: usize) -> Result<
 /// ```
 pub fn register(ctx: &SessionContext) {
     ctx.register_udaf(AggregateUDF::from(FitFunction::new()));
-    for kind in [
-        ScoreKind::SquaredDistance,
-        ScoreKind::PValue,
-        ScoreKind::Flag,
-    ] {
+    for kind in SCORE_KINDS {
         ctx.register_udf(ScalarUDF::from(ScoreFunction::new(kind)));
     }
+}
+
+const SCORE_KINDS: [ScoreKind; 3] = [ScoreKind::SquaredDistance, ScoreKind::PValue, ScoreKind::Flag];
+
+/// Registers the same functions on any function registry, such as a
+/// `SessionState` built by hand.
+///
+/// Use this when the engine builds its sessions from a state rather than a
+/// `SessionContext`: a distributed scheduler and its executors decode the
+/// query plan against the functions of the state they were started with, so
+/// the functions must be in that state (see the Ballista section of the
+/// README).
+///
+/// # Errors
+/// Whatever the registry reports (DataFusion's `SessionState` does not fail).
+///
+/// # Example
+/// ```
+/// use datafusion::execution::{FunctionRegistry, SessionStateBuilder};
+/// let mut state = SessionStateBuilder::new().with_default_features().build();
+/// mvdist::sql_functions::register_with(&mut state)?;
+/// assert!(state.udaf("mvdist_fit").is_ok());
+/// assert!(state.udf("mvdist_p_value").is_ok());
+/// # Ok::<(), datafusion::common::DataFusionError>(())
+/// ```
+pub fn register_with(registry: &mut dyn FunctionRegistry) -> Result<()> {
+    registry.register_udaf(Arc::new(AggregateUDF::from(FitFunction::new())))?;
+    for kind in SCORE_KINDS {
+        registry.register_udf(Arc::new(ScalarUDF::from(ScoreFunction::new(kind))))?;
+    }
+    Ok(())
 }
 
 /// The `mvdist_fit` aggregate.
