@@ -42,6 +42,19 @@ pub fn rows_from_slice(data: &[f64], columns: usize) -> Result<ArrayView2<'_, f6
     })
 }
 
+/// A single row of `p` finite values: [`Error::ShapeMismatch`] for a wrong
+/// length, [`Error::NonFinite`] (naming `row` and the column) otherwise.
+pub(crate) fn check_row(values: &[f64], p: usize, row: usize) -> Result<()> {
+    if values.len() != p {
+        return Err(Error::ShapeMismatch {
+            what: "row length (number of variables)",
+            expected: p,
+            found: values.len(),
+        });
+    }
+    check_row_finite(values, row)
+}
+
 /// The first non-finite value of a row, as an error naming `row`.
 pub(crate) fn check_row_finite(values: &[f64], row: usize) -> Result<()> {
     match values.iter().position(|v| !v.is_finite()) {

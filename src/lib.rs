@@ -85,6 +85,7 @@ pub mod distance;
 pub mod drift;
 mod error;
 pub mod explain;
+mod lanes;
 mod linalg;
 pub mod mean_tests;
 mod model;

@@ -1,7 +1,7 @@
 //! The fitted distance model: location, scatter, sample size and origin.
 
 use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
-use crate::data::{check_columns, check_row_finite, rows_from_slice};
+use crate::data::{check_columns, check_row, check_row_finite, rows_from_slice};
 use crate::distance::kernel;
 use crate::error::{Error, Result};
 use crate::explain::{contributions, ContributionOrder, Contributions};
@@ -455,14 +455,7 @@ impl DistanceModel {
     }
 
     fn check_point(&self, x: &[f64]) -> Result<()> {
-        if x.len() != self.dim() {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: self.dim(),
-                found: x.len(),
-            });
-        }
-        check_row_finite(x, 0)
+        check_row(x, self.dim(), 0)
     }
 
     /// Squared distance of one row to the location, `(x − μ)ᵀ Σ⁻¹ (x − μ)`.

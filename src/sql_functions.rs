@@ -98,7 +98,11 @@ pub fn register(ctx: &SessionContext) {
     }
 }
 
-const SCORE_KINDS: [ScoreKind; 3] = [ScoreKind::SquaredDistance, ScoreKind::PValue, ScoreKind::Flag];
+const SCORE_KINDS: [ScoreKind; 3] = [
+    ScoreKind::SquaredDistance,
+    ScoreKind::PValue,
+    ScoreKind::Flag,
+];
 
 /// Registers the same functions on any function registry, such as a
 /// `SessionState` built by hand.

@@ -114,6 +114,28 @@ async fn partitioned_fit_equals_in_memory_fit() {
     }
 }
 
+/// A session built from a hand-made state (as distributed engines do) gets
+/// the same functions through `register_with`, and the same fit.
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn functions_registered_on_a_state_fit_the_same() {
+    use datafusion::execution::SessionStateBuilder;
+    let x = data();
+    let by_context = fit_sql(&context(&x, 4, false), &names().join(", "))
+        .await
+        .unwrap();
+    let mut state = SessionStateBuilder::new()
+        .with_config(SessionConfig::new().with_target_partitions(4))
+        .with_default_features()
+        .build();
+    mvdist::sql_functions::register_with(&mut state).unwrap();
+    let ctx = SessionContext::new_with_state(state);
+    let plain = context(&x, 4, false);
+    let table = plain.table_provider("t").await.unwrap();
+    ctx.register_table("t", table).unwrap();
+    let by_state = fit_sql(&ctx, &names().join(", ")).await.unwrap();
+    assert_eq!(by_state, by_context);
+}
+
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn sql_scoring_equals_library_scoring() {
     let x = data();

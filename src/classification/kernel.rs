@@ -12,7 +12,8 @@
 //! instruction set and again with AVX2 and FMA, and with AVX-512 (eight
 //! lanes are one register), chosen at run time.
 
-use crate::distance::kernel::{centred_lanes, fmadd, lanes_kernel, whiten_lanes, LANES};
+use crate::distance::kernel::{centred_lanes, lanes_kernel, whiten_lanes};
+use crate::lanes::{fmadd, LANES};
 use ndarray::ArrayView2;
 
 /// What the kernel needs from a fitted classifier, borrowed.

@@ -12,8 +12,7 @@ use crate::scatter::Scatter;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
 
-/// Rows per lane block.
-pub(crate) const LANES: usize = 8;
+use crate::lanes::{fmadd, LANES};
 /// Rows per parallel task.
 const TASK_ROWS: usize = 2048;
 /// Below this many values (`n·p`), batch work stays on the calling thread:
@@ -21,15 +20,6 @@ const TASK_ROWS: usize = 2048;
 pub(crate) const SEQUENTIAL_BELOW: usize = 1 << 15;
 /// Largest `p` for which single-row scoring uses stack storage.
 pub(crate) const STACK_DIM: usize = 64;
-
-#[inline(always)]
-pub(crate) fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
-    }
-}
 
 /// Squared norms of eight whitened columns held in `buf` (`p × LANES`).
 #[inline(always)]

@@ -1,5 +1,6 @@
 //! A Cholesky factor kept current under rank-one changes.
 
+use crate::data::check_row;
 use crate::error::{Error, Result};
 use faer::{ColMut, MatMut, MatRef, Side};
 
@@ -75,6 +76,37 @@ impl TrackedFactor {
             }
         }
         d2
+    }
+
+    /// `scale · (x − mean)ᵀ (L Lᵀ)⁻¹ (x − mean)` for a checked row `x`, with
+    /// stack scratch for `p ≤ 32`: the squared distance of `x` when
+    /// `L Lᵀ` is the co-moment matrix and `scale` its divisor.
+    ///
+    /// # Errors
+    /// [`Error::ShapeMismatch`] for a row of the wrong length,
+    /// [`Error::NonFinite`] for NaN or infinite entries, [`Error::Overflow`]
+    /// when the distance is not finite.
+    pub(crate) fn squared_distance(&self, x: &[f64], mean: &[f64], scale: f64) -> Result<f64> {
+        let p = self.p;
+        check_row(x, p, 0)?;
+        let mut stack = [0.0f64; 64];
+        let mut heap;
+        let (c, scratch): (&mut [f64], &mut [f64]) = if p <= 32 {
+            let (a, b) = stack.split_at_mut(32);
+            (&mut a[..p], &mut b[..p])
+        } else {
+            heap = vec![0.0; 2 * p];
+            heap.split_at_mut(p)
+        };
+        for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(mean) {
+            *ci = xi - mi;
+        }
+        let d2 = scale * self.whitened_norm(c, scratch);
+        if d2.is_finite() {
+            Ok(d2)
+        } else {
+            Err(Error::Overflow { row: 0 })
+        }
     }
 
     /// `L` as a row-major lower matrix.

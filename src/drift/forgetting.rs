@@ -3,7 +3,7 @@
 use super::factor::TrackedFactor;
 use super::DEFAULT_REFACTOR_EVERY;
 use crate::calibration::{Reference, RowOrigin};
-use crate::data::check_row_finite;
+use crate::data::check_row;
 use crate::error::{Error, Result};
 use crate::model::{DistanceModel, Estimator, RowScore};
 use crate::scatter::Scatter;
@@ -110,14 +110,7 @@ impl ForgettingModel {
     /// unchanged on error.
     pub fn update(&mut self, x: &[f64]) -> Result<()> {
         let p = self.p;
-        if x.len() != p {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: p,
-                found: x.len(),
-            });
-        }
-        check_row_finite(x, self.count as usize)?;
+        check_row(x, p, self.count as usize)?;
         let l = self.forgetting;
         let w_old = l * self.weight_sum;
         let w_new = w_old + 1.0;
@@ -175,32 +168,8 @@ impl ForgettingModel {
     /// finiteness errors as for [`DistanceModel::squared_distance`].
     pub fn squared_distance(&self, x: &[f64]) -> Result<f64> {
         self.ready()?;
-        if x.len() != self.p {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: self.p,
-                found: x.len(),
-            });
-        }
-        check_row_finite(x, 0)?;
-        let mut stack = [0.0f64; 64];
-        let mut heap;
-        let (c, scratch): (&mut [f64], &mut [f64]) = if self.p <= 32 {
-            let (a, b) = stack.split_at_mut(32);
-            (&mut a[..self.p], &mut b[..self.p])
-        } else {
-            heap = vec![0.0; 2 * self.p];
-            heap.split_at_mut(self.p)
-        };
-        for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(&self.mean) {
-            *ci = xi - mi;
-        }
-        let d2 = self.denominator() * self.factor.whitened_norm(c, scratch);
-        if d2.is_finite() {
-            Ok(d2)
-        } else {
-            Err(Error::Overflow { row: 0 })
-        }
+        self.factor
+            .squared_distance(x, &self.mean, self.denominator())
     }
 
     /// The reference for new rows: F with `n` the effective number of rows

@@ -4,7 +4,7 @@
 use super::factor::TrackedFactor;
 use super::DEFAULT_REFACTOR_EVERY;
 use crate::calibration::{Reference, RowOrigin};
-use crate::data::check_row_finite;
+use crate::data::check_row;
 use crate::error::{Error, Result};
 use crate::model::{DistanceModel, Estimator, RowScore};
 use crate::moments::MomentAccumulator;
@@ -111,14 +111,7 @@ impl SlidingWindowModel {
     /// unchanged on error.
     pub fn update(&mut self, x: &[f64]) -> Result<()> {
         let p = self.p;
-        if x.len() != p {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: p,
-                found: x.len(),
-            });
-        }
-        check_row_finite(x, self.len)?;
+        check_row(x, p, self.len)?;
         let slot = if self.len == self.capacity {
             let slot = self.oldest;
             self.remove_oldest();
@@ -237,32 +230,8 @@ impl SlidingWindowModel {
     /// finiteness errors.
     pub fn squared_distance(&self, x: &[f64]) -> Result<f64> {
         self.ready()?;
-        if x.len() != self.p {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: self.p,
-                found: x.len(),
-            });
-        }
-        check_row_finite(x, 0)?;
-        let mut stack = [0.0f64; 64];
-        let mut heap;
-        let (c, scratch): (&mut [f64], &mut [f64]) = if self.p <= 32 {
-            let (a, b) = stack.split_at_mut(32);
-            (&mut a[..self.p], &mut b[..self.p])
-        } else {
-            heap = vec![0.0; 2 * self.p];
-            heap.split_at_mut(self.p)
-        };
-        for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(&self.mean) {
-            *ci = xi - mi;
-        }
-        let d2 = (self.len as f64 - 1.0) * self.factor.whitened_norm(c, scratch);
-        if d2.is_finite() {
-            Ok(d2)
-        } else {
-            Err(Error::Overflow { row: 0 })
-        }
+        self.factor
+            .squared_distance(x, &self.mean, self.len as f64 - 1.0)
     }
 
     /// The new-row F reference for the current window.

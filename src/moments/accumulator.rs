@@ -1,7 +1,7 @@
 //! A mergeable accumulator of the first two moments.
 
 use super::{batch, Divisor};
-use crate::data::check_row_finite;
+use crate::data::check_row;
 use crate::error::{Error, Result};
 use crate::scatter::Scatter;
 use ndarray::{Array1, Array2, ArrayView2};
@@ -216,14 +216,7 @@ impl MomentAccumulator {
     /// As [`push`](Self::push); [`Error::InvalidParameter`] for a negative or
     /// non-finite weight.
     pub fn push_weighted(&mut self, row: &[f64], weight: f64) -> Result<()> {
-        if row.len() != self.dim {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: self.dim,
-                found: row.len(),
-            });
-        }
-        check_row_finite(row, self.count as usize)?;
+        check_row(row, self.dim, self.count as usize)?;
         check_weights(&[weight], 1)?;
         self.push_unchecked(row, weight);
         Ok(())

@@ -64,14 +64,7 @@ impl ExponentialMoments {
     /// # Errors
     /// As [`MomentAccumulator::push`]; the state is unchanged on error.
     pub fn push(&mut self, row: &[f64]) -> Result<()> {
-        if row.len() != self.state.dim {
-            return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
-                expected: self.state.dim,
-                found: row.len(),
-            });
-        }
-        crate::data::check_row_finite(row, self.state.count as usize)?;
+        crate::data::check_row(row, self.state.dim, self.state.count as usize)?;
         let l = self.forgetting;
         self.state.weight_sum *= l;
         self.state.weight_sq_sum *= l * l;

@@ -8,21 +8,7 @@
 //! instruction set, for AVX2+FMA and for AVX-512, chosen at run time. For
 //! more variables faer's triangular matrix product does the work.
 
-const LANES: usize = 8;
-
-#[inline(always)]
-fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
-    }
-}
-
-#[inline(always)]
-fn lane_sum(z: &[f64; LANES]) -> f64 {
-    ((z[0] + z[1]) + (z[2] + z[3])) + ((z[4] + z[5]) + (z[6] + z[7]))
-}
+use crate::lanes::{fmadd, lane_sum, LANES};
 
 /// `acc[i][j] += Σ_r t[i][r]·t[j][r]` for `j ≤ i`; `t` is `p × len`
 /// row-major with `len` a multiple of 8.

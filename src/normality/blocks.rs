@@ -165,19 +165,3 @@ pub(crate) fn power_sums(x: ArrayView2<'_, f64>, map: &RowMap<'_>) -> Vec<f64> {
         add_sums,
     )
 }
-
-/// `a·b + c`, fused when the kernel is compiled for FMA hardware.
-#[inline(always)]
-pub(crate) fn fmadd<const FMA: bool>(a: f64, b: f64, c: f64) -> f64 {
-    if FMA {
-        a.mul_add(b, c)
-    } else {
-        a * b + c
-    }
-}
-
-/// The sum of eight lanes, in a fixed pairwise order.
-#[inline(always)]
-pub(crate) fn lane_sum(z: &[f64; 8]) -> f64 {
-    ((z[0] + z[1]) + (z[2] + z[3])) + ((z[4] + z[5]) + (z[6] + z[7]))
-}

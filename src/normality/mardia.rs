@@ -31,10 +31,11 @@
 //!   skewness and kurtosis in testing normality and robustness studies.
 //!   *Sankhyā B* 36, 115–128.
 
-use super::blocks::{fit_ml, fmadd, fold_mapped, lane_sum, RowMap, BLOCK};
+use super::blocks::{fit_ml, fold_mapped, RowMap, BLOCK};
 use super::normal;
 use crate::calibration::ChiSquared;
 use crate::error::{Error, Result};
+use crate::lanes::{fmadd, lane_sum};
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 

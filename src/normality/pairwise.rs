@@ -20,7 +20,7 @@
 //! *Elementary Functions: Algorithms and Implementation*, 3rd ed., 2016,
 //! ch. 11).
 
-use super::blocks::{fmadd, lane_sum};
+use crate::lanes::{fmadd, lane_sum};
 use rayon::prelude::*;
 
 /// Lanes per vector step.

@@ -50,7 +50,10 @@ fn write_csv(dir: &Path, x: &Array2<f64>) {
     let n = x.nrows();
     for k in 0..FILES {
         let (lo, hi) = (k * n / FILES, (k + 1) * n / FILES);
-        let mut text = (0..P).map(|j| format!("c{j}")).collect::<Vec<_>>().join(",");
+        let mut text = (0..P)
+            .map(|j| format!("c{j}"))
+            .collect::<Vec<_>>()
+            .join(",");
         text.push('\n');
         for i in lo..hi {
             let row: Vec<String> = (0..P).map(|j| format!("{:?}", x[(i, j)])).collect();
@@ -61,35 +64,47 @@ fn write_csv(dir: &Path, x: &Array2<f64>) {
     }
 }
 
-async fn ballista_context() -> SessionContext {
+/// A standalone cluster started from a state with (or without) our
+/// functions, a client context that knows them, and the data as table `t`
+/// (one CSV file per partition). The directory must outlive the context.
+async fn cluster_with_table(functions_in_cluster: bool, dir: &Path) -> SessionContext {
+    write_csv(dir, &breast_cancer());
     let config = SessionConfig::new_with_ballista().with_target_partitions(FILES);
     let mut state = SessionStateBuilder::new()
         .with_config(config)
         .with_default_features()
         .build();
-    mvdist::sql_functions::register_with(&mut state).expect("register");
-    SessionContext::standalone_with_state(state)
+    if functions_in_cluster {
+        mvdist::sql_functions::register_with(&mut state).expect("register");
+    }
+    let ctx = SessionContext::standalone_with_state(state)
         .await
-        .expect("standalone Ballista")
+        .expect("standalone Ballista");
+    // The client context that plans the query is built afresh by Ballista;
+    // it needs the functions too.
+    mvdist::sql_functions::register(&ctx);
+    ctx.register_csv(
+        "t",
+        dir.to_str().expect("utf-8 path"),
+        CsvReadOptions::new(),
+    )
+    .await
+    .expect("register csv");
+    ctx
 }
 
 fn args() -> String {
-    (0..P).map(|j| format!("c{j}")).collect::<Vec<_>>().join(", ")
+    (0..P)
+        .map(|j| format!("c{j}"))
+        .collect::<Vec<_>>()
+        .join(", ")
 }
 
 #[tokio::test(flavor = "multi_thread", worker_threads = 2)]
 async fn fit_on_ballista_equals_the_in_memory_fit() {
     let x = breast_cancer();
     let dir = tempfile::tempdir().expect("tempdir");
-    write_csv(dir.path(), &x);
-    let ctx = ballista_context().await;
-    ctx.register_csv(
-        "t",
-        dir.path().to_str().expect("utf-8 path"),
-        CsvReadOptions::new(),
-    )
-    .await
-    .expect("register csv");
+    let ctx = cluster_with_table(true, dir.path()).await;
 
     let plan = ctx
         .sql(&format!("SELECT mvdist_fit({}) AS model FROM t", args()))
@@ -127,7 +142,10 @@ async fn fit_on_ballista_equals_the_in_memory_fit() {
         .map(|(a, b)| (a - b).abs() / scale)
         .fold(0.0, f64::max);
     assert!(worst_mean < 1e-12, "mean differs by {worst_mean:e}");
-    assert!(worst_scatter < 1e-12, "scatter differs by {worst_scatter:e}");
+    assert!(
+        worst_scatter < 1e-12,
+        "scatter differs by {worst_scatter:e}"
+    );
 
     // Scoring through Ballista equals the library's scoring.
     let scored = ctx
@@ -165,4 +183,23 @@ async fn fit_on_ballista_equals_the_in_memory_fit() {
         }
     }
     assert_eq!(rows, x.nrows());
+}
+
+/// The plan really runs on the scheduler and executor: when the functions
+/// are registered on the client only, and not in the state the cluster was
+/// started from, the job fails there.
+#[tokio::test(flavor = "multi_thread", worker_threads = 2)]
+async fn the_cluster_needs_the_functions_in_its_state() {
+    let dir = tempfile::tempdir().expect("tempdir");
+    let ctx = cluster_with_table(false, dir.path()).await;
+    let result = ctx
+        .sql(&format!("SELECT mvdist_fit({}) AS model FROM t", args()))
+        .await
+        .expect("the client plans it")
+        .collect()
+        .await;
+    let message = result
+        .expect_err("the cluster cannot decode the plan")
+        .to_string();
+    assert!(message.contains("mvdist_fit"), "{message}");
 }
