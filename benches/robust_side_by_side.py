@@ -95,7 +95,7 @@ def main():
     for r in rows:
         det = ""
         if "mvdist_raw_log_det" in r:
-            det = f"{r['mvdist_raw_log_det']:.4f} / {r['sklearn_raw_log_det']:.4f}"
+            det = f"{r['mvdist_raw_log_det']:.7f} / {r['sklearn_raw_log_det']:.7f}"
         print(f"| {r['operation']} | {r['size'].replace('x', ' × ')} | {fmt(r['mvdist_s'])} | "
               f"{fmt(r['sklearn_s'])} | {r['speedup']:.1f}× | {det} |")
     with open(args.json, "w") as f:

@@ -91,6 +91,7 @@
 //! ```
 
 mod consistency;
+mod exchange;
 mod fast_mcd;
 mod hyperplane;
 pub(crate) mod random;
