@@ -8,40 +8,12 @@
 //! fraction of what the hardware allows.
 
 use criterion::{black_box, criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
+
+mod support;
 use mvdist::{DistanceModel, RowOrigin};
-use ndarray::Array2;
-use rand::{rngs::StdRng, Rng, SeedableRng};
-use rand_distr::StandardNormal;
 use rayon::prelude::*;
 use std::time::{Duration, Instant};
-
-/// Correlated rows: x = A z with a fixed random lower-triangular A.
-fn correlated_rows(n: usize, p: usize, seed: u64) -> Array2<f64> {
-    let mut rng = StdRng::seed_from_u64(seed);
-    let a: Vec<f64> = (0..p * p)
-        .map(|k| {
-            let (i, j) = (k / p, k % p);
-            if j > i {
-                0.0
-            } else if i == j {
-                1.0 + rng.gen::<f64>()
-            } else {
-                0.5 * rng.sample::<f64, _>(StandardNormal)
-            }
-        })
-        .collect();
-    let mut x = Array2::<f64>::zeros((n, p));
-    let mut z = vec![0.0; p];
-    for mut row in x.outer_iter_mut() {
-        for v in z.iter_mut() {
-            *v = rng.sample(StandardNormal);
-        }
-        for i in 0..p {
-            row[i] = 10.0 + (0..=i).map(|j| a[i * p + j] * z[j]).sum::<f64>();
-        }
-    }
-    x
-}
+use support::correlated_rows;
 
 const SIZES: [(usize, usize); 3] = [(1_000_000, 8), (1_000_000, 32), (200_000, 128)];
 

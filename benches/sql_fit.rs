@@ -10,6 +10,8 @@
 //! ratio of the two medians at the end, and checks that both fits agree.
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion};
+
+mod support;
 use datafusion::arrow::array::{ArrayRef, Float64Array, StringArray};
 use datafusion::arrow::datatypes::{DataType, Field, Schema};
 use datafusion::arrow::record_batch::RecordBatch;
@@ -18,40 +20,13 @@ use datafusion::prelude::SessionContext;
 use mvdist::model_file::ModelFile;
 use mvdist::DistanceModel;
 use ndarray::Array2;
-use rand::{rngs::StdRng, Rng, SeedableRng};
-use rand_distr::StandardNormal;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
+use support::correlated_rows;
 
 const ROWS: usize = 10_000_000;
 const COLUMNS: usize = 16;
 const BATCH: usize = 8192;
-
-/// Correlated rows `x = 10 + A z` with a fixed random lower-triangular `A`.
-fn correlated_rows(n: usize, p: usize, seed: u64) -> Array2<f64> {
-    let mut rng = StdRng::seed_from_u64(seed);
-    let mut a = vec![0.0; p * p];
-    for i in 0..p {
-        for j in 0..=i {
-            a[i * p + j] = if i == j {
-                1.0 + rng.gen::<f64>()
-            } else {
-                0.5 * rng.sample::<f64, _>(StandardNormal)
-            };
-        }
-    }
-    let mut x = Array2::<f64>::zeros((n, p));
-    let mut z = vec![0.0; p];
-    for mut row in x.outer_iter_mut() {
-        for v in z.iter_mut() {
-            *v = rng.sample(StandardNormal);
-        }
-        for i in 0..p {
-            row[i] = 10.0 + (0..=i).map(|j| a[i * p + j] * z[j]).sum::<f64>();
-        }
-    }
-    x
-}
 
 /// The same rows as Arrow batches, split into `partitions` partitions.
 fn mem_table(x: &Array2<f64>, partitions: usize) -> MemTable {
