@@ -3,7 +3,8 @@
 //! Register them on a session with [`register`], then fit and score in SQL:
 //!
 //! ```sql
-//! -- One model over the whole table; partial fits from partitions merge exactly.
+//! -- One model over the whole table; partial fits from partitions merge
+//! -- without approximation (up to the order of rounding).
 //! SELECT mvdist_fit(a, b, c) AS model FROM reference;
 //! -- Score rows against a model (the JSON text `mvdist_fit` returned).
 //! SELECT id, mvdist_d2(m.model, a, b, c) AS d2,
@@ -14,7 +15,7 @@
 //!
 //! * `mvdist_fit(x1, …, xp)` is an aggregate over `p` numeric columns. Its
 //!   state is a [`MomentAccumulator`] (serialized as JSON), so partial fits
-//!   computed on partitions or executors merge exactly; its value is a model
+//!   computed on partitions or executors merge without approximation; its value is a model
 //!   file in the JSON form of [`crate::model_file`] (variables named after
 //!   the argument columns), which [`ModelFile::from_json`] reads.
 //! * `mvdist_d2(model, x1, …, xp)`: the squared distance (`DOUBLE`).
@@ -23,7 +24,10 @@
 //! * `mvdist_flag(model, alpha, x1, …, xp)`: whether the p-value is at most
 //!   `alpha`. A flag is evidence for a closer look, not a verdict.
 //!
-//! A row with a NULL in any variable scores as NULL; NULLs in `mvdist_fit`'s
+//! Each row is scored with its own model value, so rows joined to different
+//! models (one per group, say) are scored against their own; the model text
+//! is parsed again only when it changes from one row to the next. A row with
+//! a NULL in any variable, or a NULL model, scores as NULL; NULLs in `mvdist_fit`'s
 //! input and non-numeric arguments are errors with a message naming the
 //! argument.
 
@@ -330,28 +334,74 @@ impl ScoreFunction {
     }
 }
 
-fn scalar_text(function: &str, v: &ColumnarValue) -> Result<String> {
-    match v {
-        ColumnarValue::Scalar(
-            ScalarValue::Utf8(Some(s))
-            | ScalarValue::LargeUtf8(Some(s))
-            | ScalarValue::Utf8View(Some(s)),
-        ) => Ok(s.clone()),
-        ColumnarValue::Array(a) => {
-            let a = cast(a, &DataType::Utf8)?;
-            let s = a
-                .as_any()
-                .downcast_ref::<StringArray>()
-                .ok_or_else(|| error(function, "the model argument is not text"))?;
-            (0..s.len())
-                .find(|&i| !s.is_null(i))
-                .map(|i| s.value(i).to_string())
-                .ok_or_else(|| error(function, "the model argument is NULL"))
+/// The model argument: one text for every row, or one per row (as a join
+/// produces; rows may carry different models).
+enum ModelArgument {
+    Same(String),
+    PerRow(StringArray),
+}
+
+impl ModelArgument {
+    fn new(function: &str, v: &ColumnarValue) -> Result<Self> {
+        match v {
+            ColumnarValue::Scalar(
+                ScalarValue::Utf8(Some(s))
+                | ScalarValue::LargeUtf8(Some(s))
+                | ScalarValue::Utf8View(Some(s)),
+            ) => Ok(ModelArgument::Same(s.clone())),
+            ColumnarValue::Array(a) => {
+                let a = cast(a, &DataType::Utf8)?;
+                a.as_any()
+                    .downcast_ref::<StringArray>()
+                    .cloned()
+                    .map(ModelArgument::PerRow)
+                    .ok_or_else(|| error(function, "the model argument is not text"))
+            }
+            _ => Err(error(
+                function,
+                "the model argument must be the text returned by mvdist_fit",
+            )),
         }
-        _ => Err(error(
-            function,
-            "the model argument must be the text returned by mvdist_fit",
-        )),
+    }
+
+    /// The model text of row `i`, `None` for a NULL model.
+    fn text(&self, i: usize) -> Option<&str> {
+        match self {
+            ModelArgument::Same(s) => Some(s),
+            ModelArgument::PerRow(a) => (!a.is_null(i)).then(|| a.value(i)),
+        }
+    }
+}
+
+/// A parsed model with its new-row reference, and the text it came from.
+struct LoadedModel {
+    text: String,
+    model: DistanceModel,
+    reference: crate::calibration::Reference,
+}
+
+impl LoadedModel {
+    fn load(function: &str, text: &str, passed: usize) -> Result<Self> {
+        let file = ModelFile::from_json(text).map_err(|e| error(function, e))?;
+        let p = file.model().dim();
+        if passed != p {
+            return Err(error(
+                function,
+                format!(
+                    "the model has {p} variables ({}) but {passed} were passed",
+                    file.variables().join(", "),
+                ),
+            ));
+        }
+        let reference = file
+            .model()
+            .reference(RowOrigin::New)
+            .map_err(|e| error(function, e))?;
+        Ok(LoadedModel {
+            text: text.to_owned(),
+            model: file.model().clone(),
+            reference,
+        })
     }
 }
 
@@ -395,20 +445,8 @@ impl ScalarUDFImpl for ScoreFunction {
         let name = self.name();
         let n = args.number_rows;
         let lead = self.leading();
-        let file =
-            ModelFile::from_json(&scalar_text(name, &args.args[0])?).map_err(|e| error(name, e))?;
-        let model = file.model();
-        let p = model.dim();
-        if args.args.len() - lead != p {
-            return Err(error(
-                name,
-                format!(
-                    "the model has {p} variables ({}) but {} were passed",
-                    file.variables().join(", "),
-                    args.args.len() - lead
-                ),
-            ));
-        }
+        let passed = args.args.len() - lead;
+        let models = ModelArgument::new(name, &args.args[0])?;
         let alpha = if lead == 2 {
             match &args.args[1] {
                 ColumnarValue::Scalar(ScalarValue::Float64(Some(a))) => *a,
@@ -431,35 +469,45 @@ impl ScalarUDFImpl for ScoreFunction {
                     .ok_or_else(|| error(name, "a variable is not numeric"))
             })
             .collect::<Result<_>>()?;
-        let reference = model
-            .reference(RowOrigin::New)
-            .map_err(|e| error(name, e))?;
-        let mut row = vec![0.0; p];
-        let mut d2 = Vec::with_capacity(n);
+        // Rows usually share one model: it is parsed again only when the
+        // text changes from one row to the next.
+        let mut current: Option<LoadedModel> = None;
+        let mut row = vec![0.0; passed];
+        let mut scores: Vec<Option<(f64, f64)>> = Vec::with_capacity(n);
         for i in 0..n {
-            if columns.iter().any(|c| c.is_null(i)) {
-                d2.push(None);
+            let Some(text) = models.text(i) else {
+                scores.push(None);
                 continue;
-            }
-            for (r, c) in row.iter_mut().zip(&columns) {
-                *r = c.value(i);
-            }
-            d2.push(Some(
-                model
+            };
+            let loaded = match current.take() {
+                Some(m) if m.text == text => m,
+                _ => LoadedModel::load(name, text, passed)?,
+            };
+            if columns.iter().any(|c| c.is_null(i)) {
+                scores.push(None);
+            } else {
+                for (r, c) in row.iter_mut().zip(&columns) {
+                    *r = c.value(i);
+                }
+                let d2 = loaded
+                    .model
                     .squared_distance(&row)
-                    .map_err(|e| error(name, format!("row {i}: {e}")))?,
-            ));
+                    .map_err(|e| error(name, format!("row {i}: {e}")))?;
+                scores.push(Some((d2, loaded.reference.p_value(d2))));
+            }
+            current = Some(loaded);
         }
         let out: ArrayRef = match self.kind {
-            ScoreKind::SquaredDistance => Arc::new(Float64Array::from(d2)),
+            ScoreKind::SquaredDistance => Arc::new(Float64Array::from(
+                scores.iter().map(|s| s.map(|s| s.0)).collect::<Vec<_>>(),
+            )),
             ScoreKind::PValue => Arc::new(Float64Array::from(
-                d2.into_iter()
-                    .map(|d| d.map(|d| reference.p_value(d)))
-                    .collect::<Vec<_>>(),
+                scores.iter().map(|s| s.map(|s| s.1)).collect::<Vec<_>>(),
             )),
             ScoreKind::Flag => Arc::new(BooleanArray::from(
-                d2.into_iter()
-                    .map(|d| d.map(|d| reference.p_value(d) <= alpha))
+                scores
+                    .iter()
+                    .map(|s| s.map(|s| s.1 <= alpha))
                     .collect::<Vec<_>>(),
             )),
         };

@@ -102,7 +102,8 @@ pub(crate) fn best_exchange(
                 uv += uk * vk;
             }
             let (vv, uv) = (vv / cf, uv / cf);
-            let ratio = r1 * (1.0 + grow * (vv + a * uv * uv / r1));
+            // r1·(1 + grow·(vv + a·uv²/r1)), without dividing by r1.
+            let ratio = r1 * (1.0 + grow * vv) + grow * a * uv * uv;
             if ratio.is_finite() && best.is_none_or(|b| ratio < b.ratio) {
                 best = Some(Exchange {
                     leave: i,

@@ -520,7 +520,10 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
     };
     match best.into_iter().next() {
         Some(c) => {
-            let c = polish(x, h, c, &mut Scratch::default())?;
+            let c = match polish(x, h, c, &mut Scratch::default())? {
+                Ok(c) => c,
+                Err(hp) => return Ok(Search::ExactFit(hp)),
+            };
             Ok(Search::Found(RawMcd {
                 subset: c.subset,
                 mean: c.mean,
@@ -535,13 +538,15 @@ pub(crate) fn search(x: ArrayView2<'_, f64>, plan: &SearchPlan) -> Result<Search
 }
 
 /// Pairwise exchanges, each followed by C-steps to convergence, while they
-/// lower the determinant (at most [`MAX_EXCHANGES`]).
+/// lower the determinant (at most [`MAX_EXCHANGES`]). An exchange that
+/// reaches a singular subset is an exact fit when at least `h` rows lie on
+/// its hyperplane.
 fn polish(
     x: ArrayView2<'_, f64>,
     h: usize,
     mut best: Candidate,
     s: &mut Scratch,
-) -> Result<Candidate> {
+) -> Result<std::result::Result<Candidate, Hyperplane>> {
     s.d2.resize(x.nrows(), 0.0);
     for _ in 0..MAX_EXCHANGES {
         kernel::batch_squared_distances(&best.scatter, &best.mean, x, &mut s.d2)?;
@@ -558,16 +563,24 @@ fn polish(
             .map(|&i| if i == e.leave { e.enter } else { i })
             .collect();
         idx.sort_unstable();
-        let Estimate::Regular(mean, scatter) = estimate(x, &idx, &mut s.rows)? else {
-            break;
+        let (mean, scatter) = match estimate(x, &idx, &mut s.rows)? {
+            Estimate::Regular(m, sc) => (m, sc),
+            Estimate::Singular(m, cov) => match hyperplane::exact_fit(x, &m, &cov, h) {
+                Some(hp) => return Ok(Err(hp)),
+                None => break,
+            },
         };
-        let Step::Regular(next) = concentrate(x, h, mean, scatter, MAX_STEPS, s)? else {
-            break;
+        let next = match concentrate(x, h, mean, scatter, MAX_STEPS, s)? {
+            Step::Regular(c) => c,
+            Step::Singular { mean, cov } => match hyperplane::exact_fit(x, &mean, &cov, h) {
+                Some(hp) => return Ok(Err(hp)),
+                None => break,
+            },
         };
         if next.scatter.log_determinant() >= best.scatter.log_determinant() {
             break;
         }
         best = next;
     }
-    Ok(best)
+    Ok(Ok(best))
 }

@@ -128,18 +128,11 @@ async fn fit_on_ballista_equals_the_in_memory_fit() {
         .zip(want.location().iter())
         .map(|(a, b)| (a - b).abs() / b.abs())
         .fold(0.0, f64::max);
-    let scale = want
-        .scatter()
-        .matrix()
-        .iter()
-        .fold(0.0f64, |m, v| m.max(v.abs()));
-    let worst_scatter = file
-        .model()
-        .scatter()
-        .matrix()
-        .iter()
-        .zip(want.scatter().matrix().iter())
-        .map(|(a, b)| (a - b).abs() / scale)
+    // Each entry relative to its own scale, sqrt(Σ_ii Σ_jj).
+    let (g, w) = (file.model().scatter().matrix(), want.scatter().matrix());
+    let worst_scatter = w
+        .indexed_iter()
+        .map(|((i, j), b)| (g[(i, j)] - b).abs() / (w[(i, i)] * w[(j, j)]).sqrt())
         .fold(0.0, f64::max);
     assert!(worst_mean < 1e-12, "mean differs by {worst_mean:e}");
     assert!(
