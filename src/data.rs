@@ -95,7 +95,14 @@ pub(crate) fn check_columns(x: ArrayView2<'_, f64>, p: usize) -> Result<()> {
 
 /// A square view of a `p × p` row-major buffer.
 pub(crate) fn square_view(data: &[f64], p: usize) -> ArrayView2<'_, f64> {
-    // Invariant: every caller's buffer holds exactly p² values, established
-    // when the owning value was constructed.
-    ArrayView2::from_shape((p, p), data).unwrap_or_else(|_| unreachable!("buffer of p² values"))
+    matrix_view(data, p, p)
+}
+
+/// A `rows × cols` view of a row-major buffer.
+///
+/// Every owning type builds its buffer with exactly `rows · cols` values, so
+/// the view always has that shape; should that ever not hold, the view is
+/// empty (`0 × 0`) rather than a panic in the caller's service.
+pub(crate) fn matrix_view<T>(data: &[T], rows: usize, cols: usize) -> ArrayView2<'_, T> {
+    ArrayView2::from_shape((rows, cols), data).unwrap_or_else(|_| ndarray::aview2::<T, 0>(&[]))
 }

@@ -471,6 +471,7 @@ impl ScalarUDFImpl for ScoreFunction {
             .collect::<Result<_>>()?;
         // Rows usually share one model: it is parsed again only when the
         // text changes from one row to the next.
+        let same_for_all = matches!(models, ModelArgument::Same(_));
         let mut current: Option<LoadedModel> = None;
         let mut row = vec![0.0; passed];
         let mut scores: Vec<Option<(f64, f64)>> = Vec::with_capacity(n);
@@ -480,7 +481,7 @@ impl ScalarUDFImpl for ScoreFunction {
                 continue;
             };
             let loaded = match current.take() {
-                Some(m) if m.text == text => m,
+                Some(m) if same_for_all || m.text == text => m,
                 _ => LoadedModel::load(name, text, passed)?,
             };
             if columns.iter().any(|c| c.is_null(i)) {

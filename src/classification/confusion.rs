@@ -69,9 +69,7 @@ impl ConfusionMatrix {
 
     /// The matrix: row = actual group, column = assigned group.
     pub fn counts(&self) -> Array2<u64> {
-        ArrayView2::from_shape((self.groups, self.groups), &self.counts)
-            .map(|v| v.to_owned())
-            .unwrap_or_else(|_| unreachable!("groups² counts"))
+        crate::data::matrix_view(&self.counts, self.groups, self.groups).to_owned()
     }
 
     /// Total number of rows.

@@ -60,8 +60,7 @@ impl DiscriminantDirections {
 
     /// The directions as the columns of a `p × r` matrix.
     pub fn directions(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.dim, self.values.len()), &self.directions)
-            .unwrap_or_else(|_| unreachable!("p × r directions"))
+        crate::data::matrix_view(&self.directions, self.dim, self.values.len())
     }
 
     /// Each direction's share of the total separation, `λ_k / Σ λ`.

@@ -408,8 +408,7 @@ impl<L> Classifier<L> {
 
     /// The group centroids, one row per group.
     pub fn centroids(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.labels.len(), self.dim), &self.centroids)
-            .unwrap_or_else(|_| unreachable!("G × p centroids"))
+        crate::data::matrix_view(&self.centroids, self.labels.len(), self.dim)
     }
 
     /// The scatter group `g` is measured with: the pooled scatter for the

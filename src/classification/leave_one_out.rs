@@ -253,14 +253,12 @@ impl LeaveOneOut {
     /// Each left-out row's squared distances to the centroids of the
     /// classifier fitted without it (rows × groups).
     pub fn squared_distances(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.actual.len(), self.groups), &self.squared_distances)
-            .unwrap_or_else(|_| unreachable!("rows × groups values"))
+        crate::data::matrix_view(&self.squared_distances, self.actual.len(), self.groups)
     }
 
     /// Each left-out row's posterior probabilities (rows × groups).
     pub fn posteriors(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.actual.len(), self.groups), &self.posteriors)
-            .unwrap_or_else(|_| unreachable!("rows × groups values"))
+        crate::data::matrix_view(&self.posteriors, self.actual.len(), self.groups)
     }
 
     /// The leave-one-out confusion matrix.

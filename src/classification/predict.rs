@@ -136,15 +136,13 @@ impl Predictions {
 
     /// Squared distances, one row per input row and one column per group.
     pub fn squared_distances(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.rows, self.groups), &self.squared_distances)
-            .unwrap_or_else(|_| unreachable!("rows × groups values"))
+        crate::data::matrix_view(&self.squared_distances, self.rows, self.groups)
     }
 
     /// Posterior probabilities, one row per input row and one column per
     /// group.
     pub fn posteriors(&self) -> ArrayView2<'_, f64> {
-        ArrayView2::from_shape((self.rows, self.groups), &self.posteriors)
-            .unwrap_or_else(|_| unreachable!("rows × groups values"))
+        crate::data::matrix_view(&self.posteriors, self.rows, self.groups)
     }
 
     /// The posterior probability of each row's assigned group.
