@@ -89,10 +89,12 @@ pub(crate) fn best_exchange(
     let mut best: Option<Exchange> = None;
     for (u, &i) in zu.iter().zip(&leaving) {
         let uu = dot(u, u) / cf;
-        let r1 = 1.0 - a * uu;
-        if r1 <= 0.0 {
-            continue;
-        }
+        // det M₋ᵢ / det M ≥ 0; a negative value is rounding. It may be 0:
+        // a row whose removal alone leaves a singular subset can still be
+        // part of an exchange (the two-term form below is the determinant
+        // lemma for the rank-two update and needs no division by r1), and
+        // that is how an exact fit one row away is reached.
+        let r1 = (1.0 - a * uu).max(0.0);
         for (w, &j) in zw.iter().zip(&entering) {
             // v = w + u/(c−1), whitened.
             let (mut vv, mut uv) = (0.0, 0.0);

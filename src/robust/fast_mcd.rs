@@ -584,3 +584,118 @@ fn polish(
     }
     Ok(Ok(best))
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Eleven rows on the line `y = 2x + 1`, nine rows off it (a scenario of
+    /// our own, built so that the answer is known by construction).
+    fn line_and_scatter() -> Array2<f64> {
+        line_and_scatter_with(2.0, 1.0)
+    }
+
+    /// Eleven rows on `y = slope·x + offset` (x = 0, 1, …, 10), nine rows
+    /// off it.
+    fn line_and_scatter_with(slope: f64, offset: f64) -> Array2<f64> {
+        let mut rows = Vec::new();
+        for t in 0..11 {
+            let t = f64::from(t);
+            rows.extend([t, slope * t + offset]);
+        }
+        let off = [
+            (0.5, 9.0),
+            (3.2, -4.0),
+            (7.7, 2.5),
+            (-2.0, 6.0),
+            (10.5, 1.0),
+            (4.4, 20.0),
+            (-3.5, -7.5),
+            (8.1, 30.0),
+            (1.3, -9.0),
+        ];
+        for (a, b) in off {
+            rows.extend([a, b]);
+        }
+        Array2::from_shape_vec((20, 2), rows).unwrap_or_default()
+    }
+
+    /// The polish (h = 11) started from rows 0–9 (on the line) and row 11
+    /// (off it).
+    fn polish_one_row_off(x: &Array2<f64>) -> Result<std::result::Result<Candidate, Hyperplane>> {
+        let mut subset: Vec<usize> = (0..10).collect();
+        subset.push(11);
+        let mut buf = Vec::new();
+        let Estimate::Regular(mean, scatter) = estimate(x.view(), &subset, &mut buf)? else {
+            return Err(Error::invalid(
+                "test",
+                "the starting subset must be regular",
+            ));
+        };
+        let start = Candidate {
+            mean,
+            scatter,
+            subset,
+        };
+        polish(x.view(), 11, start, &mut Scratch::default())
+    }
+
+    #[test]
+    fn an_exact_fit_reached_by_an_exchange_is_reported() {
+        // Start the polish from ten of the eleven rows on the line plus one
+        // row off it: the only exchange that makes the determinant vanish
+        // swaps row 11 (off) for row 10 (on), and the 11 = h rows on the line
+        // are then an exact fit. Before the polish could report it, this
+        // subset was returned as a regular (nearly singular) estimate.
+        let x = line_and_scatter();
+        let h = 11;
+        let outcome = polish_one_row_off(&x);
+        let Ok(Err(plane)) = outcome else {
+            panic!("expected an exact fit from the polish");
+        };
+        assert_eq!(plane.rows(), (0..11).collect::<Vec<_>>().as_slice());
+        assert_eq!(plane.subset_size(), h);
+        // The unit normal of y = 2x + 1 is ±(2, −1)/√5, offset ∓1/√5.
+        let a = plane.coefficients();
+        let s = 5f64.sqrt();
+        let sign = if a[0] > 0.0 { 1.0 } else { -1.0 };
+        assert!((a[0] - sign * 2.0 / s).abs() < 1e-9, "{a:?}");
+        assert!((a[1] + sign / s).abs() < 1e-9, "{a:?}");
+        assert!((plane.offset() + sign / s).abs() < 1e-9);
+    }
+
+    /// Removing the off-line row alone leaves ten collinear rows, so the
+    /// first factor of its exchange ratio is 0 and rounding makes it
+    /// ±1e-16. Skipping the negative case (as an earlier version did) missed
+    /// the exact fit on 53 of these 200 lines.
+    #[test]
+    fn the_exact_fit_is_reached_whatever_the_rounding_of_a_vanishing_factor() {
+        let mut misses = Vec::new();
+        for k in 0..200 {
+            let slope = 0.1 + 0.173 * f64::from(k);
+            let offset = -3.0 + 0.071 * f64::from(k);
+            let x = line_and_scatter_with(slope, offset);
+            if !matches!(polish_one_row_off(&x), Ok(Err(_))) {
+                misses.push(k);
+            }
+        }
+        assert!(misses.is_empty(), "missed for lines {misses:?}");
+    }
+
+    #[test]
+    fn the_full_search_finds_the_same_exact_fit() {
+        let x = line_and_scatter();
+        let plan = SearchPlan {
+            subset_size: 11,
+            starts: 500,
+            seed: 7,
+            thorough: true,
+        };
+        match search(x.view(), &plan) {
+            Ok(Search::ExactFit(plane)) => {
+                assert_eq!(plane.rows(), (0..11).collect::<Vec<_>>().as_slice())
+            }
+            _ => panic!("expected an exact fit"),
+        }
+    }
+}
