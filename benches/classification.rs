@@ -12,6 +12,8 @@
 //! * `classify_leave_one_out/{linear,quadratic}`: leave-one-out on 100 000
 //!   training rows (fit included).
 
+mod support;
+
 use criterion::{criterion_group, criterion_main, Criterion};
 use mvdist::classification::{
     Classifier, ClassifierOptions, LeaveOneOut, PredictOptions, Predictions, Rule,
@@ -36,20 +38,7 @@ fn labelled_rows(n: usize, seed: u64) -> (Array2<f64>, Vec<u32>) {
                 .map(|_| 3.0 * rng.sample::<f64, _>(StandardNormal))
                 .collect::<Vec<_>>(),
         );
-        mixes.push(
-            (0..P * P)
-                .map(|k| {
-                    let (i, j) = (k / P, k % P);
-                    if j > i {
-                        0.0
-                    } else if i == j {
-                        1.0 + rng.gen::<f64>()
-                    } else {
-                        0.3 * rng.sample::<f64, _>(StandardNormal)
-                    }
-                })
-                .collect::<Vec<_>>(),
-        );
+        mixes.push(support::lower_mix(&mut rng, P, 0.3));
     }
     let mut x = Array2::<f64>::zeros((n, P));
     let mut labels = Vec::with_capacity(n);

@@ -23,10 +23,8 @@ pub type Result<T> = std::result::Result<T, Error>;
 ///
 /// // The second column is constant: its variance is zero.
 /// let rows = array![[1.0, 5.0], [2.0, 5.0], [4.0, 5.0], [3.0, 5.0]];
-/// match DistanceModel::fit(rows.view()) {
-///     Err(Error::ZeroVariance { column }) => assert_eq!(column, 1),
-///     other => panic!("unexpected: {other:?}"),
-/// }
+/// let outcome = DistanceModel::fit(rows.view());
+/// assert!(matches!(outcome, Err(Error::ZeroVariance { column: 1 })), "{outcome:?}");
 /// ```
 #[derive(Debug, Clone, PartialEq)]
 #[non_exhaustive]

@@ -41,7 +41,7 @@
 //! println!("d² = {:?}, p = {:?}, flagged = {flags:?}", scores.squared_distances(), scores.p_values());
 //!
 //! // Which variables drove the second row's distance?
-//! let why = model.explain(new_rows.row(1).as_slice().unwrap(), ContributionOrder::LargestFirst)?;
+//! let why = model.explain(&new_rows.row(1).to_vec(), ContributionOrder::LargestFirst)?;
 //! println!("{:?}", why.in_order());
 //! # Ok::<(), mvdist::Error>(())
 //! ```

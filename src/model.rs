@@ -109,11 +109,18 @@ pub enum Estimator {
 /// let current = RwLock::new(fit(0.0)?);
 /// std::thread::scope(|s| {
 ///     s.spawn(|| {
-///         // Scorers clone the Arc (cheap) and release the lock at once.
-///         let model = Arc::clone(&current.read().unwrap());
-///         model.score_row(&[3.0, 4.0], RowOrigin::New, 0.01).unwrap();
+///         // Scorers clone the Arc (cheap) and release the lock at once
+///         // (a lock poisoned by a panicking writer still holds a model).
+///         let model = Arc::clone(&current.read().unwrap_or_else(|e| e.into_inner()));
+///         let scored = model.score_row(&[3.0, 4.0], RowOrigin::New, 0.01);
+///         assert!(scored.is_ok());
 ///     });
-///     s.spawn(|| *current.write().unwrap() = fit(0.5).unwrap());
+///     s.spawn(|| {
+///         // Fit outside the lock; swap only a model that fitted.
+///         if let Ok(next) = fit(0.5) {
+///             *current.write().unwrap_or_else(|e| e.into_inner()) = next;
+///         }
+///     });
 /// });
 /// # Ok::<(), mvdist::Error>(())
 /// ```

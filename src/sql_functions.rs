@@ -26,7 +26,7 @@
 //!
 //! Each row is scored with its own model value, so rows joined to different
 //! models (one per group, say) are scored against their own; the model text
-//! is parsed again only when it changes from one row to the next. A row with
+//! is parsed once per distinct model in a batch. A row with
 //! a NULL in any variable, or a NULL model, scores as NULL; NULLs in `mvdist_fit`'s
 //! input and non-numeric arguments are errors with a message naming the
 //! argument.
@@ -46,6 +46,7 @@ use datafusion::logical_expr::{
     ScalarUDFImpl, Signature, Volatility,
 };
 use datafusion::prelude::SessionContext;
+use std::collections::HashMap;
 use std::sync::Arc;
 
 fn error(function: &str, message: impl std::fmt::Display) -> DataFusionError {
@@ -373,9 +374,8 @@ impl ModelArgument {
     }
 }
 
-/// A parsed model with its new-row reference, and the text it came from.
+/// A parsed model with its new-row reference.
 struct LoadedModel {
-    text: String,
     model: DistanceModel,
     reference: crate::calibration::Reference,
 }
@@ -398,7 +398,6 @@ impl LoadedModel {
             .reference(RowOrigin::New)
             .map_err(|e| error(function, e))?;
         Ok(LoadedModel {
-            text: text.to_owned(),
             model: file.model().clone(),
             reference,
         })
@@ -469,10 +468,13 @@ impl ScalarUDFImpl for ScoreFunction {
                     .ok_or_else(|| error(name, "a variable is not numeric"))
             })
             .collect::<Result<_>>()?;
-        // Rows usually share one model: it is parsed again only when the
-        // text changes from one row to the next.
+        // Each distinct model text in the batch is parsed once; consecutive
+        // rows usually carry the same one, which is checked first.
         let same_for_all = matches!(models, ModelArgument::Same(_));
-        let mut current: Option<LoadedModel> = None;
+        let wants_p_value = !matches!(self.kind, ScoreKind::SquaredDistance);
+        let mut loaded: Vec<LoadedModel> = Vec::new();
+        let mut seen: HashMap<&str, usize> = HashMap::new();
+        let mut last: Option<(&str, usize)> = None;
         let mut row = vec![0.0; passed];
         let mut scores: Vec<Option<(f64, f64)>> = Vec::with_capacity(n);
         for i in 0..n {
@@ -480,23 +482,38 @@ impl ScalarUDFImpl for ScoreFunction {
                 scores.push(None);
                 continue;
             };
-            let loaded = match current.take() {
-                Some(m) if same_for_all || m.text == text => m,
-                _ => LoadedModel::load(name, text, passed)?,
+            let k = match last {
+                Some((t, k)) if same_for_all || t == text => k,
+                _ => match seen.get(text) {
+                    Some(&k) => k,
+                    None => {
+                        loaded.push(LoadedModel::load(name, text, passed)?);
+                        seen.insert(text, loaded.len() - 1);
+                        loaded.len() - 1
+                    }
+                },
+            };
+            last = Some((text, k));
+            let Some(m) = loaded.get(k) else {
+                return Err(error(name, "internal: model cache out of step"));
             };
             if columns.iter().any(|c| c.is_null(i)) {
                 scores.push(None);
-            } else {
-                for (r, c) in row.iter_mut().zip(&columns) {
-                    *r = c.value(i);
-                }
-                let d2 = loaded
-                    .model
-                    .squared_distance(&row)
-                    .map_err(|e| error(name, format!("row {i}: {e}")))?;
-                scores.push(Some((d2, loaded.reference.p_value(d2))));
+                continue;
             }
-            current = Some(loaded);
+            for (r, c) in row.iter_mut().zip(&columns) {
+                *r = c.value(i);
+            }
+            let d2 = m
+                .model
+                .squared_distance(&row)
+                .map_err(|e| error(name, format!("row {i}: {e}")))?;
+            let p_value = if wants_p_value {
+                m.reference.p_value(d2)
+            } else {
+                f64::NAN
+            };
+            scores.push(Some((d2, p_value)));
         }
         let out: ArrayRef = match self.kind {
             ScoreKind::SquaredDistance => Arc::new(Float64Array::from(

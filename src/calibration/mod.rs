@@ -188,12 +188,12 @@ impl Reference {
     /// ```
     /// use mvdist::calibration::Reference;
     /// let r = Reference::raw_mcd(200, 5, 103)?;
-    /// let m = r.degrees_of_freedom().unwrap();
+    /// let m = r.degrees_of_freedom().ok_or("the F reference has an m")?;
     /// assert!(m > 30.0 && m < 45.0);
     /// // The cutoff is well beyond the χ²(5) one at the same level.
     /// let chi2 = Reference::chi_square(5)?;
     /// assert!(r.cutoff(0.025)? > chi2.cutoff(0.025)?);
-    /// # Ok::<(), mvdist::Error>(())
+    /// # Ok::<(), Box<dyn std::error::Error>>(())
     /// ```
     pub fn raw_mcd(n: usize, dim: usize, subset_size: usize) -> Result<Self> {
         hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?;

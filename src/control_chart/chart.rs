@@ -65,9 +65,9 @@ pub enum ChartDesign {
 /// let new = array![[10.0, 5.0], [10.0, 6.5]];
 /// let points = chart.monitor(new.view())?;
 /// assert!(!points[0].signal && points[1].signal);
-/// let why = points[1].diagnosis.as_ref().unwrap();
+/// let why = points[1].diagnosis.as_ref().ok_or("the point should signal")?;
 /// assert_eq!(why.terms[0].variable, 1); // the second variable is out of range
-/// # Ok::<(), mvdist::Error>(())
+/// # Ok::<(), Box<dyn std::error::Error>>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct ControlChart {

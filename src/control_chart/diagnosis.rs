@@ -119,10 +119,10 @@ impl SignalDiagnosis {
     /// let chart = ControlChart::individuals(rows.view(), &PhaseOneSettings::default())?;
     /// // Each value in range, but the pair disagrees.
     /// let points = chart.monitor(ndarray::array![[2.0, -2.0]].view())?;
-    /// let d = points[0].diagnosis.as_ref().expect("a signal");
+    /// let d = points[0].diagnosis.as_ref().ok_or("the point should signal")?;
     /// assert!(d.out_of_range().is_empty());
     /// assert!(!d.broken_relationships().is_empty());
-    /// # Ok::<(), mvdist::Error>(())
+    /// # Ok::<(), Box<dyn std::error::Error>>(())
     /// ```
     pub fn broken_relationships(&self) -> Vec<&RatedTerm> {
         let out: Vec<usize> = self.out_of_range().iter().map(|t| t.variable).collect();

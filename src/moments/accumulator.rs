@@ -42,7 +42,7 @@ use serde::{Deserialize, Serialize};
 /// a.push_rows(rows.slice(ndarray::s![..2, ..]))?;
 /// let mut b = MomentAccumulator::new(2)?;
 /// for row in rows.slice(ndarray::s![2.., ..]).outer_iter() {
-///     b.push(row.as_slice().unwrap())?;
+///     b.push(&row.to_vec())?;
 /// }
 /// // …and their states are merged.
 /// a.merge(&b)?;

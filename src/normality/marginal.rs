@@ -50,8 +50,9 @@ impl VariableShape {
     /// let shapes = VariableShape::of_columns(rows.view())?;
     /// assert!(shapes[0].skewness.abs() < 1e-12); // evenly spaced: symmetric
     /// assert!(shapes[1].skewness > 1.0);          // one far value: skewed right
-    /// assert!(shapes[1].shapiro_wilk.unwrap().p_value() < 0.05);
-    /// # Ok::<(), mvdist::Error>(())
+    /// let w = shapes[1].shapiro_wilk.ok_or("computed for n ≥ 3")?;
+    /// assert!(w.p_value() < 0.05);
+    /// # Ok::<(), Box<dyn std::error::Error>>(())
     /// ```
     pub fn of_columns(rows: ArrayView2<'_, f64>) -> Result<Vec<VariableShape>> {
         let (n, p) = rows.dim();

@@ -34,7 +34,8 @@ const SMALL_SAMPLE: usize = 50;
 /// use mvdist::normality::NormalityTest;
 /// assert_eq!(NormalityTest::ALL.len(), 6);
 /// assert_eq!(NormalityTest::RoystonH.title(), "Royston H");
-/// assert_eq!(serde_json::to_string(&NormalityTest::RoystonH).unwrap(), "\"royston_h\"");
+/// assert_eq!(serde_json::to_string(&NormalityTest::RoystonH)?, "\"royston_h\"");
+/// # Ok::<(), serde_json::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, PartialOrd, Ord, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
@@ -268,11 +269,11 @@ impl NormalityOptions {
 /// ];
 /// let report = NormalityReport::compute(rows.view(), &NormalityOptions::default())?
 ///     .with_variable_names(vec!["sepal_length".into(), "sepal_width".into(), "petal_length".into()])?;
-/// let hz = report.summary(NormalityTest::HenzeZirkler).expect("computed for 12 rows");
+/// let hz = report.summary(NormalityTest::HenzeZirkler).ok_or("computed for 12 rows")?;
 /// println!("{}: p = {:.3} — {}", hz.test.title(), hz.p_value, hz.reading);
-/// let json = serde_json::to_string(&report).unwrap();
+/// let json = serde_json::to_string(&report)?;
 /// assert!(json.contains("\"test\":\"henze_zirkler\""));
-/// # Ok::<(), mvdist::Error>(())
+/// # Ok::<(), Box<dyn std::error::Error>>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]

@@ -138,40 +138,42 @@ mod tests {
     use crate::moments::MomentAccumulator;
     use ndarray::Array2;
 
-    fn ml_scatter(x: &Array2<f64>, idx: &[usize]) -> (Vec<f64>, Scatter) {
+    fn ml_scatter(x: &Array2<f64>, idx: &[usize]) -> crate::Result<(Vec<f64>, Scatter)> {
         let rows = x.select(ndarray::Axis(0), idx);
-        let acc = MomentAccumulator::from_rows(rows.view()).unwrap();
+        let acc = MomentAccumulator::from_rows(rows.view())?;
         let c = idx.len() as f64;
         let cov: Vec<f64> = acc.comoment.iter().map(|v| v / c).collect();
-        (
+        Ok((
             acc.mean().to_vec(),
-            Scatter::from_row_major(&cov, x.ncols()).unwrap(),
-        )
+            Scatter::from_row_major(&cov, x.ncols())?,
+        ))
     }
 
     /// The ranking ratio equals the determinant ratio computed directly
     /// (the rank-one identities above are exact).
     #[test]
-    fn ratio_equals_the_direct_determinant_ratio() {
+    fn ratio_equals_the_direct_determinant_ratio() -> crate::Result<()> {
         let n = 40;
         let x = Array2::from_shape_fn((n, 3), |(i, j)| {
             ((i * 7 + j * 13) as f64 * 0.618).sin() * (1.0 + j as f64) + 0.1 * (i * j) as f64
         });
         let subset: Vec<usize> = (0..n).filter(|i| i % 3 != 0).collect();
-        let (mean, scatter) = ml_scatter(&x, &subset);
-        let d2: Vec<f64> = (0..n)
+        let (mean, scatter) = ml_scatter(&x, &subset)?;
+        let d2 = (0..n)
             .map(|i| {
                 let c: Vec<f64> = x.row(i).iter().zip(&mean).map(|(v, m)| v - m).collect();
-                scatter.squared_norm(&c).unwrap()
+                scatter.squared_norm(&c)
             })
-            .collect();
-        let e = best_exchange(x.view(), &subset, &mean, &scatter, &d2).unwrap();
+            .collect::<crate::Result<Vec<f64>>>()?;
+        let e = best_exchange(x.view(), &subset, &mean, &scatter, &d2);
+        assert!(e.is_some(), "both sides of the boundary are non-empty");
+        let Some(e) = e else { return Ok(()) };
         let mut swapped: Vec<usize> = subset
             .iter()
             .map(|&i| if i == e.leave { e.enter } else { i })
             .collect();
         swapped.sort_unstable();
-        let (_, after) = ml_scatter(&x, &swapped);
+        let (_, after) = ml_scatter(&x, &swapped)?;
         let direct = (after.log_determinant() - scatter.log_determinant()).exp();
         assert!(
             (e.ratio - direct).abs() < 1e-10 * direct,
@@ -186,9 +188,10 @@ mod tests {
                 let mut s: Vec<usize> =
                     subset.iter().map(|&k| if k == i { j } else { k }).collect();
                 s.sort_unstable();
-                lowest = lowest.min(ml_scatter(&x, &s).1.log_determinant());
+                lowest = lowest.min(ml_scatter(&x, &s)?.1.log_determinant());
             }
         }
         assert!((after.log_determinant() - lowest).abs() < 1e-12);
+        Ok(())
     }
 }

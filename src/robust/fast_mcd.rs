@@ -617,7 +617,7 @@ mod tests {
         for (a, b) in off {
             rows.extend([a, b]);
         }
-        Array2::from_shape_vec((20, 2), rows).unwrap_or_default()
+        Array2::from_shape_fn((20, 2), |(i, j)| rows[2 * i + j])
     }
 
     /// The polish (h = 11) started from rows 0–9 (on the line) and row 11
@@ -641,7 +641,7 @@ mod tests {
     }
 
     #[test]
-    fn an_exact_fit_reached_by_an_exchange_is_reported() {
+    fn an_exact_fit_reached_by_an_exchange_is_reported() -> Result<()> {
         // Start the polish from ten of the eleven rows on the line plus one
         // row off it: the only exchange that makes the determinant vanish
         // swaps row 11 (off) for row 10 (on), and the 11 = h rows on the line
@@ -649,9 +649,11 @@ mod tests {
         // subset was returned as a regular (nearly singular) estimate.
         let x = line_and_scatter();
         let h = 11;
-        let outcome = polish_one_row_off(&x);
-        let Ok(Err(plane)) = outcome else {
-            panic!("expected an exact fit from the polish");
+        let Err(plane) = polish_one_row_off(&x)? else {
+            return Err(Error::invalid(
+                "test",
+                "expected an exact fit from the polish",
+            ));
         };
         assert_eq!(plane.rows(), (0..11).collect::<Vec<_>>().as_slice());
         assert_eq!(plane.subset_size(), h);
@@ -662,6 +664,7 @@ mod tests {
         assert!((a[0] - sign * 2.0 / s).abs() < 1e-9, "{a:?}");
         assert!((a[1] + sign / s).abs() < 1e-9, "{a:?}");
         assert!((plane.offset() + sign / s).abs() < 1e-9);
+        Ok(())
     }
 
     /// Removing the off-line row alone leaves ten collinear rows, so the
@@ -683,7 +686,7 @@ mod tests {
     }
 
     #[test]
-    fn the_full_search_finds_the_same_exact_fit() {
+    fn the_full_search_finds_the_same_exact_fit() -> Result<()> {
         let x = line_and_scatter();
         let plan = SearchPlan {
             subset_size: 11,
@@ -691,11 +694,10 @@ mod tests {
             seed: 7,
             thorough: true,
         };
-        match search(x.view(), &plan) {
-            Ok(Search::ExactFit(plane)) => {
-                assert_eq!(plane.rows(), (0..11).collect::<Vec<_>>().as_slice())
-            }
-            _ => panic!("expected an exact fit"),
-        }
+        let Search::ExactFit(plane) = search(x.view(), &plan)? else {
+            return Err(Error::invalid("test", "expected an exact fit"));
+        };
+        assert_eq!(plane.rows(), (0..11).collect::<Vec<_>>().as_slice());
+        Ok(())
     }
 }

@@ -36,8 +36,9 @@ use std::fmt;
 ///         assert!(hyperplane.rows().len() >= 30);
 ///         assert!(hyperplane.residual(&[3.0, 7.0]).abs() < 1e-12);
 ///     }
-///     other => panic!("expected an exact fit, got {other:?}"),
+///     other => return Err(format!("expected an exact fit, got {other:?}").into()),
 /// }
+/// # Ok::<(), Box<dyn std::error::Error>>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 pub struct Hyperplane {
