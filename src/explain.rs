@@ -58,9 +58,51 @@ pub enum ContributionOrder {
 
 /// Per-variable terms that add up to the squared distance.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ContributionsData")]
 pub struct Contributions {
     order: Vec<usize>,
     terms: Vec<f64>,
+}
+
+/// The serialized form, checked on the way in: the order is a permutation
+/// of the variables.
+#[derive(Deserialize)]
+struct ContributionsData {
+    order: Vec<usize>,
+    terms: Vec<f64>,
+}
+
+impl TryFrom<ContributionsData> for Contributions {
+    type Error = Error;
+    fn try_from(d: ContributionsData) -> Result<Self> {
+        check_permutation(&d.order, d.terms.len())?;
+        Ok(Contributions {
+            order: d.order,
+            terms: d.terms,
+        })
+    }
+}
+
+/// `Ok` if `perm` is a permutation of `0..p`.
+pub(crate) fn check_permutation(perm: &[usize], p: usize) -> Result<()> {
+    if perm.len() != p {
+        return Err(Error::ShapeMismatch {
+            what: "order length (number of variables)",
+            expected: p,
+            found: perm.len(),
+        });
+    }
+    let mut seen = vec![false; p];
+    for &j in perm {
+        if j >= p || seen[j] {
+            return Err(Error::invalid(
+                "order",
+                format!("{perm:?} is not a permutation of 0..{p}"),
+            ));
+        }
+        seen[j] = true;
+    }
+    Ok(())
 }
 
 impl Contributions {
@@ -100,23 +142,7 @@ pub(crate) fn contributions(
 ) -> Result<Contributions> {
     let p = scatter.dim();
     if let ContributionOrder::Given(perm) = order {
-        let mut seen = vec![false; p];
-        if perm.len() != p {
-            return Err(Error::ShapeMismatch {
-                what: "order length (number of variables)",
-                expected: p,
-                found: perm.len(),
-            });
-        }
-        for &j in perm {
-            if j >= p || seen[j] {
-                return Err(Error::invalid(
-                    "order",
-                    format!("{perm:?} is not a permutation of 0..{p}"),
-                ));
-            }
-            seen[j] = true;
-        }
+        check_permutation(perm, p)?;
     }
     let mut s = scatter.matrix_slice().to_vec();
     let mut r = c.to_vec();

@@ -178,10 +178,40 @@ impl From<DistanceModel> for ModelData {
 
 /// Squared distances and p-values of a batch of rows.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ScoresData")]
 pub struct Scores {
     squared_distances: Vec<f64>,
     p_values: Vec<f64>,
     reference: Reference,
+}
+
+/// The serialized form of [`Scores`], checked on the way in: one p-value
+/// per squared distance.
+#[derive(Deserialize)]
+struct ScoresData {
+    squared_distances: Vec<f64>,
+    p_values: Vec<f64>,
+    reference: Reference,
+}
+
+impl TryFrom<ScoresData> for Scores {
+    type Error = Error;
+    fn try_from(d: ScoresData) -> Result<Self> {
+        if d.squared_distances.len() != d.p_values.len() {
+            return Err(Error::Format {
+                reason: format!(
+                    "{} squared distances but {} p-values",
+                    d.squared_distances.len(),
+                    d.p_values.len()
+                ),
+            });
+        }
+        Ok(Scores {
+            squared_distances: d.squared_distances,
+            p_values: d.p_values,
+            reference: d.reference,
+        })
+    }
 }
 
 impl Scores {
@@ -606,10 +636,19 @@ impl DistanceModel {
     /// | MCD, reweighted | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
     /// | MCD, raw | Hardin–Rocke F ([`Reference::RawMcdF`]) | χ²(p) |
     ///
+    /// The F and Beta laws are stated for the unbiased (`n − 1`) covariance;
+    /// for a model whose scatter uses the divisor `n` (classical fits with
+    /// [`Divisor::MaximumLikelihood`], and the shrinkage estimates, which
+    /// start from that covariance) the reference rescales each squared
+    /// distance by `(n − 1)/n` first ([`Reference::with_divisor`]). A
+    /// weighted fit with the divisor `n` has no F or Beta reference.
+    ///
     /// # Errors
     /// [`Error::TooFewRows`] if the model's sample is too small for that
     /// reference (`n > p` for new rows, `n > p + 1` for in-sample rows);
-    /// for a raw MCD model, the errors of [`Reference::raw_mcd`].
+    /// for a raw MCD model, the errors of [`Reference::raw_mcd`];
+    /// [`Error::InvalidParameter`] for new or in-sample rows of a weighted
+    /// fit with the divisor `n`.
     pub fn reference(&self, origin: RowOrigin) -> Result<Reference> {
         match (&self.estimator, origin) {
             (_, RowOrigin::KnownParameters) => Reference::chi_square(self.dim()),
@@ -628,7 +667,19 @@ impl DistanceModel {
                 },
                 _,
             ) => Reference::raw_mcd(self.sample_size, self.dim(), *subset_size),
-            _ => Reference::for_origin(origin, self.sample_size, self.dim()),
+            (
+                Estimator::Weighted {
+                    divisor: Divisor::MaximumLikelihood,
+                },
+                _,
+            ) => Err(Error::invalid(
+                "row origin",
+                "a weighted fit with the maximum-likelihood divisor has no F or Beta \
+                 reference (its scale depends on the weights); refit with \
+                 Divisor::Unbiased, or score with RowOrigin::KnownParameters",
+            )),
+            (estimator, _) => Ok(Reference::for_origin(origin, self.sample_size, self.dim())?
+                .with_divisor(reference_divisor(estimator))),
         }
     }
 
@@ -708,6 +759,19 @@ impl DistanceModel {
     /// As [`Whitener::new`].
     pub fn whitener(&self, kind: WhiteningKind) -> Result<Whitener> {
         Whitener::new(&self.location, &self.scatter, kind)
+    }
+}
+
+/// The divisor of the covariance behind a model's scatter, as the F and
+/// Beta references need it: the shrinkage estimates start from the
+/// maximum-likelihood covariance (and equal it at intensity 0).
+fn reference_divisor(estimator: &Estimator) -> Divisor {
+    match estimator {
+        Estimator::Classical { divisor } | Estimator::Weighted { divisor } => *divisor,
+        Estimator::LedoitWolf { .. } | Estimator::Oas { .. } | Estimator::Shrunk { .. } => {
+            Divisor::MaximumLikelihood
+        }
+        _ => Divisor::Unbiased,
     }
 }
 

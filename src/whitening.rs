@@ -55,7 +55,11 @@ pub enum WhiteningKind {
 }
 
 /// A whitening map `x ↦ F (x − μ)` and its inverse `z ↦ μ + G z`.
+///
+/// Deserializing checks the stored dimensions (a location of `p` values,
+/// two `p × p` matrices) and that every entry is finite.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "WhitenerData")]
 pub struct Whitener {
     kind: WhiteningKind,
     dim: usize,
@@ -64,6 +68,62 @@ pub struct Whitener {
     forward: Vec<f64>,
     /// `G = F⁻¹`, row-major.
     inverse: Vec<f64>,
+}
+
+/// The serialized form of a [`Whitener`], checked on the way in.
+#[derive(Deserialize)]
+struct WhitenerData {
+    kind: WhiteningKind,
+    dim: usize,
+    location: Vec<f64>,
+    forward: Vec<f64>,
+    inverse: Vec<f64>,
+}
+
+impl TryFrom<WhitenerData> for Whitener {
+    type Error = Error;
+    fn try_from(d: WhitenerData) -> Result<Self> {
+        let p = d.dim;
+        if p == 0 {
+            return Err(Error::Format {
+                reason: "a whitener needs at least one variable".into(),
+            });
+        }
+        let square = p.checked_mul(p).ok_or_else(|| Error::Format {
+            reason: format!("dimension {p} is too large"),
+        })?;
+        for (what, len, expected) in [
+            ("location", d.location.len(), p),
+            ("forward matrix", d.forward.len(), square),
+            ("inverse matrix", d.inverse.len(), square),
+        ] {
+            if len != expected {
+                return Err(Error::Format {
+                    reason: format!(
+                        "the whitener's {what} has {len} values; dimension {p} needs {expected}"
+                    ),
+                });
+            }
+        }
+        for (what, values) in [
+            ("location", &d.location),
+            ("forward matrix", &d.forward),
+            ("inverse matrix", &d.inverse),
+        ] {
+            if let Some(k) = values.iter().position(|v| !v.is_finite()) {
+                return Err(Error::Format {
+                    reason: format!("the whitener's {what} has a non-finite value at entry {k}"),
+                });
+            }
+        }
+        Ok(Whitener {
+            kind: d.kind,
+            dim: p,
+            location: d.location,
+            forward: d.forward,
+            inverse: d.inverse,
+        })
+    }
 }
 
 impl Whitener {

@@ -1180,3 +1180,95 @@ fn normality_errors_name_the_column() {
         .code(1)
         .stderr(predicate::str::contains("too few for 3 variables"));
 }
+
+/// Every subcommand that reads a model file reads both forms `fit` writes
+/// (JSON and `--binary`), with the same results; a far row's p-value is
+/// printed in short scientific form.
+#[test]
+fn binary_and_json_model_files_serve_every_reader() {
+    let dir = TempDir::new().unwrap();
+    let (data, json_model) = fit_iris(&dir);
+    let bin_model = dir.path().join("model.bin");
+    mvdist()
+        .arg("fit")
+        .arg(&data)
+        .arg("--out")
+        .arg(&bin_model)
+        .args(["--label", "flower", "--binary"])
+        .assert()
+        .success();
+    assert_ne!(
+        std::fs::read(&bin_model).unwrap(),
+        std::fs::read(&json_model).unwrap()
+    );
+    // score: same output from either form.
+    let mut outputs = Vec::new();
+    for (k, model) in [&json_model, &bin_model].into_iter().enumerate() {
+        let out = dir.path().join(format!("scores_{k}.csv"));
+        mvdist()
+            .arg("score")
+            .arg(model)
+            .arg(&data)
+            .arg("--out")
+            .arg(&out)
+            .args(["--label", "flower"])
+            .assert()
+            .success();
+        outputs.push(std::fs::read_to_string(&out).unwrap());
+    }
+    assert_eq!(outputs[0], outputs[1]);
+    // chart --start-model: same points from either form.
+    let (history, _) = species_csv(dir.path(), 0);
+    let mut points = Vec::new();
+    for k in 0..2 {
+        let out = dir.path().join(format!("points_{k}.csv"));
+        // The start model must have the chart's variables: fit one on the
+        // history file itself.
+        let start = dir.path().join(format!("start_{k}"));
+        let mut fit = mvdist();
+        fit.arg("fit")
+            .arg(&history)
+            .arg("--out")
+            .arg(&start)
+            .args(["--label", "flower"]);
+        if k == 1 {
+            fit.arg("--binary");
+        }
+        fit.assert().success();
+        mvdist()
+            .arg("chart")
+            .arg(&history)
+            .arg("--out")
+            .arg(&out)
+            .arg("--start-model")
+            .arg(&start)
+            .args(["--label", "flower"])
+            .assert()
+            .success();
+        points.push(std::fs::read_to_string(&out).unwrap());
+    }
+    assert_eq!(points[0], points[1]);
+    // A row far from the centre: its p-value is about 1e-200 and prints in
+    // the shortest round-trip form, not as a long decimal.
+    let far = write(
+        dir.path(),
+        "far.csv",
+        "flower,sepal_length,sepal_width,petal_length,petal_width\nfar,5.8,3.0,40.0,1.2\n",
+    );
+    let out = dir.path().join("far_scores.csv");
+    mvdist()
+        .arg("score")
+        .arg(&bin_model)
+        .arg(&far)
+        .arg("--out")
+        .arg(&out)
+        .args(["--label", "flower"])
+        .assert()
+        .success();
+    let rows = read_scores(&out);
+    let p_text = &rows[0][3];
+    let p: f64 = p_text.parse().unwrap();
+    assert!(p > 0.0 && p < 1e-30, "{p_text}");
+    assert!(p_text.contains('e') && p_text.len() <= 24, "{p_text}");
+    assert_eq!(format!("{p:e}"), *p_text);
+}

@@ -100,29 +100,40 @@ fn term_laws_reduce_to_the_chart_laws_for_one_variable() {
             ),
         ] {
             assert_eq!(
-                limit.term_distribution(0).unwrap(),
+                limit.term_distribution(0, 0.0).unwrap(),
                 one_var.distribution().unwrap()
             );
         }
-        // Published Phase II conditional law: (m+1)(m−1)/(m(m−k−1)) F(1, m−k−1).
+        // Published Phase II conditional law (Mason, Tracy and Young 1995):
+        // (m+1)(m−1)/(m(m−k−1)) F(1, m−k−1), which is ours at zero
+        // leverage (T²_J = 0).
         let k = 2;
-        let d = ControlLimit::individuals_phase_two(m, p)
-            .unwrap()
-            .term_distribution(k)
-            .unwrap();
+        let limit = ControlLimit::individuals_phase_two(m, p).unwrap();
+        let d = limit.term_distribution(k, 0.0).unwrap();
         let mf = m as f64;
+        let published = (mf + 1.0) * (mf - 1.0) / (mf * (mf - 3.0));
         assert_eq!(
             d,
             ScaledDistribution::F {
-                scale: (mf + 1.0) * (mf - 1.0) / (mf * (mf - 3.0)),
+                scale: published,
                 d1: 1.0,
                 d2: mf - 3.0
             }
         );
-        assert!(ControlLimit::individuals_phase_two(m, p)
-            .unwrap()
-            .term_distribution(p)
-            .is_err());
+        // With leverage: the prediction variance of least squares at a
+        // point with T²_J = t (common practice: Var(ŷ − y) = σ²(1 + 1/m +
+        // h), h = t/(m−1)): scale (m−1)/(m−k−1)·(1 + 1/m + t/(m−1)).
+        let t = 4.5;
+        let with = limit.term_distribution(k, t).unwrap();
+        let expected = (mf - 1.0) / (mf - 3.0) * (1.0 + 1.0 / mf + t / (mf - 1.0));
+        assert!((with.scale() - expected).abs() < 1e-14 * expected);
+        // Phase I Beta law: ((m−1)²/m − t)·Beta(1/2, (m−k−2)/2).
+        let one = ControlLimit::individuals_phase_one(m, p).unwrap();
+        let b = one.term_distribution(k, t).unwrap();
+        assert!((b.scale() - ((mf - 1.0).powi(2) / mf - t)).abs() < 1e-12);
+        assert!(limit.term_distribution(p, 0.0).is_err());
+        assert!(limit.term_distribution(1, -1.0).is_err());
+        assert!(limit.term_distribution(1, f64::NAN).is_err());
     }
 }
 
@@ -419,17 +430,21 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
         .collect();
     let t2 = chart.point_scatter().squared_norm(&c).unwrap();
     assert!((terms.iter().map(|t| t.value).sum::<f64>() - t2).abs() < 1e-10 * t2);
+    let mut given = 0.0;
     for (k, t) in terms.iter().enumerate() {
         let law = chart
             .limit(PointOrigin::New)
             .unwrap()
-            .term_distribution(k)
+            .term_distribution(k, given)
             .unwrap();
-        assert_eq!(
-            t.cutoff,
-            law.cutoff(FalseAlarmRate::default().alpha()).unwrap()
+        let cutoff = law.cutoff(FalseAlarmRate::default().alpha()).unwrap();
+        assert!(
+            (t.cutoff - cutoff).abs() <= 1e-12 * cutoff,
+            "{} {cutoff}",
+            t.cutoff
         );
         assert_eq!(t.p_value, law.p_value(t.value));
+        given += t.value;
     }
     let d = chart.diagnose(&point, PointOrigin::New, 3).unwrap();
     assert_eq!(d.terms.len(), 32);
@@ -553,30 +568,45 @@ fn in_control_false_alarm_rates_match_alpha() {
     let mut phase1 = 0usize;
     let mut unconditional = 0usize;
     let mut conditional = 0usize;
+    let mut conditional_in = 0usize;
     for _ in 0..reps {
         let x = process(&mut rng, m + 1, p);
         let chart = ControlChart::individuals(x.slice(ndarray::s![0..m, ..]), &settings).unwrap();
         let pt = chart.monitor(x.slice(ndarray::s![m.., ..])).unwrap();
         phase2 += usize::from(pt[0].signal);
         phase1 += usize::from(chart.phase_one_points()[0].signal);
-        // Decomposition terms of the new point (rates reported, the
-        // unconditional one checked: its law is exact).
+        // Decomposition terms of the new point: every term's law is exact,
+        // the conditional ones through the leverage term.
         let row: Vec<f64> = x.row(m).to_vec();
         let terms = chart
             .decompose_along(&row, &[0, 1, 2], PointOrigin::New)
             .unwrap();
         unconditional += usize::from(terms[0].exceeds());
         conditional += usize::from(terms[2].exceeds());
+        // And a Phase I point's terms against the Phase I (Beta) laws.
+        let first: Vec<f64> = x.row(0).to_vec();
+        let terms = chart
+            .decompose_along(&first, &[0, 1, 2], PointOrigin::InEstimate)
+            .unwrap();
+        conditional_in += usize::from(terms[2].exceeds());
     }
     let se = (alpha * (1.0 - alpha) / reps as f64).sqrt();
     let r2 = phase2 as f64 / reps as f64;
     let r1 = phase1 as f64 / reps as f64;
     let ru = unconditional as f64 / reps as f64;
     let rc = conditional as f64 / reps as f64;
-    eprintln!("individuals m={m} p={p}: Phase II rate {r2:.5}, Phase I rate {r1:.5}, unconditional term {ru:.5}, T²_(3·12) term {rc:.5} (α = {alpha}, se {se:.5})");
+    let rci = conditional_in as f64 / reps as f64;
+    eprintln!("individuals m={m} p={p}: Phase II rate {r2:.5}, Phase I rate {r1:.5}, unconditional term {ru:.5}, T²_(3·12) term {rc:.5} (Phase I point: {rci:.5}) (α = {alpha}, se {se:.5})");
     assert!((r2 - alpha).abs() < 4.0 * se, "Phase II {r2}");
     assert!((r1 - alpha).abs() < 4.0 * se, "Phase I {r1}");
     assert!((ru - alpha).abs() < 4.0 * se, "unconditional term {ru}");
+    // Before the leverage term, this rate was 1.27% (> 10 standard errors
+    // above α).
+    assert!((rc - alpha).abs() < 4.0 * se, "conditional term {rc}");
+    assert!(
+        (rci - alpha).abs() < 4.0 * se,
+        "conditional term, Phase I point {rci}"
+    );
 
     let (groups, size) = (15, 4);
     let reps_sub = 100_000usize;

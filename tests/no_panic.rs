@@ -419,7 +419,8 @@ proptest! {
             for r in [Reference::chi_square(p), Reference::new_row(n, p), Reference::in_sample(n, p),
                       Reference::raw_mcd(n, p, (n + p).div_ceil(2)), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
                       Ok(Reference::RawMcdF { n, dim: p, subset_size: v.abs().min(1e6) as usize }),
-                      Ok(Reference::NewRowF { n, dim: p }), Ok(Reference::InSampleBeta { n, dim: p })].into_iter().flatten() {
+                      Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::MaximumLikelihood }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::MaximumLikelihood }),
+                      Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::Unbiased }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::Unbiased })].into_iter().flatten() {
                 {
                     let pv = r.p_value(v);
                     assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
@@ -507,8 +508,12 @@ proptest! {
             ok_finite(limit.upper(rate));
             let pv = limit.p_value(alpha);
             assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
-            if let Ok(d) = limit.term_distribution(depth) {
-                ok_finite(d.cutoff(0.01));
+            for given in [0.0, alpha.abs(), f64::from(depth as u32) * 7.5, 1e300] {
+                if let Ok(d) = limit.term_distribution(depth, given) {
+                    ok_finite(d.cutoff(0.01));
+                    let pv = d.p_value(given);
+                    assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
+                }
             }
         }
     }
@@ -568,4 +573,224 @@ fn corrupted_model_json_is_rejected() {
     let mut v2 = v.clone();
     v2["location"] = serde_json::json!([1.0]);
     assert!(serde_json::from_value::<DistanceModel>(v2).is_err());
+}
+
+/// Every number of `json` in turn replaced by odd values, and every array
+/// shortened by one element: the mutations a hand-edited or corrupted file
+/// shows.
+fn mutations(json: &str) -> Vec<String> {
+    let bytes = json.as_bytes();
+    let mut numbers = Vec::new();
+    let mut i = 0;
+    while i < bytes.len() {
+        let c = bytes[i];
+        let starts = (c == b'-' || c.is_ascii_digit())
+            && (i == 0 || matches!(bytes[i - 1], b':' | b',' | b'[' | b' '));
+        if starts {
+            let mut j = i + 1;
+            while j < bytes.len()
+                && matches!(bytes[j], b'0'..=b'9' | b'.' | b'e' | b'E' | b'+' | b'-')
+            {
+                j += 1;
+            }
+            numbers.push((i, j));
+            i = j;
+        } else {
+            i += 1;
+        }
+    }
+    let mut out = Vec::new();
+    for &(a, b) in numbers.iter().take(60) {
+        for replacement in [
+            "0",
+            "-1",
+            "1",
+            "2",
+            "5",
+            "1e308",
+            "-1e308",
+            "1e-320",
+            "0.5",
+            "18446744073709551615",
+            "null",
+            "[]",
+        ] {
+            out.push(format!("{}{replacement}{}", &json[..a], &json[b..]));
+        }
+        // Drop the number with its separator (shortens an array).
+        if a > 0 && bytes[a - 1] == b',' {
+            out.push(format!("{}{}", &json[..a - 1], &json[b..]));
+        } else if b < bytes.len() && bytes[b] == b',' {
+            out.push(format!("{}{}", &json[..a], &json[b + 1..]));
+        }
+    }
+    out.push(json[..json.len() / 2].to_string());
+    out
+}
+
+/// Deserializes every mutation of `value`'s JSON as `T` and exercises what
+/// deserialized: a malformed value is an `Err`, never a panic later.
+fn survives_mutations<T>(value: &T, exercise: impl Fn(&T))
+where
+    T: serde::Serialize + serde::de::DeserializeOwned,
+{
+    let json = serde_json::to_string(value).unwrap();
+    let back: T = serde_json::from_str(&json).unwrap();
+    exercise(&back);
+    for text in mutations(&json) {
+        if let Ok(v) = serde_json::from_str::<T>(&text) {
+            exercise(&v);
+        }
+    }
+}
+
+#[test]
+fn mutated_serialized_values_never_panic() {
+    use mvdist::control_chart::{
+        chart_svg, decomposition, ControlChart, PhaseOneSettings, PointOrigin, ScaledDistribution,
+    };
+    use mvdist::mean_tests;
+    use mvdist::normality::{
+        ChiSquareQq, DoornikHansen, HenzeZirkler, Mardia, NormalityOptions, NormalityReport,
+        RoystonH, ShapiroWilk,
+    };
+    let x = ndarray::array![
+        [1.0, 2.0, 0.3],
+        [2.0, 1.0, 0.1],
+        [4.0, 5.0, 0.9],
+        [3.0, 3.5, 0.2],
+        [0.5, 1.0, 0.4],
+        [2.5, 2.0, 0.8],
+        [1.5, 2.5, 0.6],
+        [3.5, 3.0, 0.7],
+        [2.2, 1.4, 0.5],
+        [0.9, 1.9, 0.35]
+    ];
+    let rows = x.view();
+    let probe: Vec<f64> = vec![1.0, 2.0, 0.5];
+    let model = DistanceModel::fit(rows).unwrap();
+    survives_mutations(&model, |m| exercise_model(m, rows, &probe));
+    survives_mutations(model.scatter(), |s| {
+        let _ = s.squared_norm(&probe);
+        let _ = s.condition_number();
+    });
+    let whitener = model.whitener(WhiteningKind::Symmetric).unwrap();
+    survives_mutations(&whitener, |w| {
+        let _ = w.whiten(rows);
+        let _ = w.unwhiten(rows);
+        let _ = (w.forward_matrix(), w.inverse_matrix());
+    });
+    let scores = model.score(rows, RowOrigin::InSample).unwrap();
+    survives_mutations(&scores, |s| {
+        let _ = s.flags(0.05, Adjustment::BenjaminiHochberg);
+        let _ = s.flags(0.05, Adjustment::Bonferroni);
+    });
+    let why = model
+        .explain(&probe, ContributionOrder::LargestFirst)
+        .unwrap();
+    survives_mutations(&why, |c| {
+        let _ = (c.in_order(), c.top_variable(), c.total());
+    });
+    for origin in [
+        RowOrigin::New,
+        RowOrigin::InSample,
+        RowOrigin::KnownParameters,
+    ] {
+        survives_mutations(&model.reference(origin).unwrap(), |r| {
+            let _ = (
+                r.p_value(3.0),
+                r.cdf(3.0),
+                r.cutoff(0.01),
+                r.max_squared_distance(),
+            );
+        });
+    }
+    let acc = MomentAccumulator::from_rows(rows).unwrap();
+    survives_mutations(&acc, |a| {
+        let _ = a.scatter(Divisor::Unbiased);
+        let mut b = a.clone();
+        let _ = b.merge(&acc);
+    });
+    let mut ew = ExponentialMoments::new(3, 0.9).unwrap();
+    for r in x.outer_iter() {
+        ew.push(r.as_slice().unwrap()).unwrap();
+    }
+    survives_mutations(&ew, |e| {
+        let mut e = e.clone();
+        let _ = e.push(&probe);
+        let _ = e.covariance(Divisor::Unbiased);
+    });
+    let settings = PhaseOneSettings::default();
+    let chart = ControlChart::individuals(rows, &settings).unwrap();
+    survives_mutations(&chart, |c| {
+        if let Ok(points) = c.monitor(rows) {
+            let _ = chart_svg(c, &points, "t");
+        }
+        let _ = c.diagnose(&probe, PointOrigin::New, 2);
+        let _ = c.decompose_along(&probe, &[2, 0, 1], PointOrigin::InEstimate);
+        let _ = c.upper_limit(PointOrigin::New);
+    });
+    survives_mutations(&chart.false_alarm(), |f| {
+        let _ = (f.alpha(), f.average_run_length());
+    });
+    let limit = chart.limit(PointOrigin::New).unwrap();
+    survives_mutations(&limit, |l| {
+        let _ = l.upper(chart.false_alarm());
+        let _ = l.p_value(4.0);
+        let _ = l.term_distribution(1, 2.0).map(|d| d.cutoff(0.01));
+    });
+    survives_mutations(&limit.distribution().unwrap(), |d: &ScaledDistribution| {
+        let _ = (d.p_value(2.0), d.cutoff(0.01));
+    });
+    let terms = decomposition::conditional_terms(chart.point_scatter(), &probe, 2).unwrap();
+    survives_mutations(&terms, |_| {});
+    let diagnosis = chart.diagnose(&probe, PointOrigin::New, 2).unwrap();
+    survives_mutations(&diagnosis, |d| {
+        let _ = (
+            d.out_of_range(),
+            d.broken_relationships(),
+            d.exceeding().count(),
+        );
+    });
+    let comparison = mean_tests::one_sample(rows, &[2.0, 2.0, 0.5]).unwrap();
+    survives_mutations(&comparison, |c| {
+        let _ = c.intervals(0.05);
+        let _ = c.critical_t_squared(0.05);
+        let _ = (c.p_value(), c.rejects(0.05));
+    });
+    let halves = [x.slice(ndarray::s![..5, ..]), x.slice(ndarray::s![5.., ..])];
+    if let Ok(eq) = mean_tests::scatter_equality(&halves) {
+        survives_mutations(&eq, |e| {
+            let _ = (e.statistic(), e.chi_square(), e.dim());
+        });
+    }
+    survives_mutations(&Mardia::compute(rows).unwrap(), |m| {
+        let _ = (
+            m.skewness_p_value(),
+            m.corrected_skewness_p_value(),
+            m.kurtosis_null_variance(),
+        );
+    });
+    survives_mutations(&HenzeZirkler::compute(rows).unwrap(), |h| {
+        let _ = (h.p_value(), h.null_mean(), h.null_variance());
+    });
+    survives_mutations(&RoystonH::compute(rows).unwrap(), |r| {
+        let _ = (r.p_value(), r.per_variable().len());
+    });
+    survives_mutations(&DoornikHansen::compute(rows).unwrap(), |d| {
+        let _ = (d.p_value(), d.statistic(), d.degrees_of_freedom());
+    });
+    survives_mutations(
+        &ShapiroWilk::compute(&[1.0, 2.5, 2.0, 4.0, 3.1]).unwrap(),
+        |s| {
+            let _ = s.p_value();
+        },
+    );
+    survives_mutations(&ChiSquareQq::compute(rows).unwrap(), |q| {
+        let _ = (q.theoretical().len(), q.observed().len());
+    });
+    survives_mutations(
+        &NormalityReport::compute(rows, &NormalityOptions::default()).unwrap(),
+        |_| {},
+    );
 }

@@ -51,6 +51,7 @@ pub use adjust::{adjusted_p_values, Adjustment};
 pub use distributions::{BetaDistribution, ChiSquared, FDistribution};
 
 use crate::error::{Error, Result};
+use crate::moments::Divisor;
 use serde::{Deserialize, Serialize};
 
 /// Where a scored row comes from, relative to the model's fitting sample.
@@ -89,19 +90,31 @@ pub enum Reference {
         /// Number of variables `p`.
         dim: usize,
     },
-    /// `n·d²/(n−1)² ~ Beta(p/2, (n−p−1)/2)`: the row was in the fitting sample.
+    /// `n·d²/(n−1)² ~ Beta(p/2, (n−p−1)/2)`: the row was in the fitting
+    /// sample. `d²` is on the scale of the `n − 1` covariance; distances
+    /// from a covariance with divisor `n` are rescaled by `(n − 1)/n` first.
     InSampleBeta {
         /// Rows in the fitting sample.
         n: usize,
         /// Number of variables `p`.
         dim: usize,
+        /// The divisor of the covariance the distances were measured with
+        /// (missing in data written before 0.2: unbiased).
+        #[serde(default)]
+        divisor: Divisor,
     },
-    /// `n(n−p)·d²/(p(n+1)(n−1)) ~ F(p, n−p)`: the row is new.
+    /// `n(n−p)·d²/(p(n+1)(n−1)) ~ F(p, n−p)`: the row is new. `d²` is on
+    /// the scale of the `n − 1` covariance; distances from a covariance
+    /// with divisor `n` are rescaled by `(n − 1)/n` first.
     NewRowF {
         /// Rows in the fitting sample.
         n: usize,
         /// Number of variables `p`.
         dim: usize,
+        /// The divisor of the covariance the distances were measured with
+        /// (missing in data written before 0.2: unbiased).
+        #[serde(default)]
+        divisor: Divisor,
     },
     /// `(m−p+1)·d²/(p m) ~ F(p, m−p+1)` (Hardin and Rocke 2005): `d²` is
     /// measured with a raw minimum covariance determinant estimate
@@ -148,7 +161,11 @@ impl Reference {
                 columns: dim,
             });
         }
-        Ok(Reference::InSampleBeta { n, dim })
+        Ok(Reference::InSampleBeta {
+            n,
+            dim,
+            divisor: Divisor::Unbiased,
+        })
     }
 
     /// F reference for new rows scored against a model fitted on `n` rows.
@@ -165,7 +182,54 @@ impl Reference {
                 columns: dim,
             });
         }
-        Ok(Reference::NewRowF { n, dim })
+        Ok(Reference::NewRowF {
+            n,
+            dim,
+            divisor: Divisor::Unbiased,
+        })
+    }
+
+    /// The same reference for squared distances measured with a covariance
+    /// of the given divisor. The Beta and F laws are stated for the
+    /// unbiased (`n − 1`) covariance; with divisor `n` every squared
+    /// distance is `n/(n − 1)` times larger, and the reference rescales it
+    /// before evaluating the law. χ² and raw-MCD references are unchanged.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{calibration::Reference, Divisor};
+    /// let unbiased = Reference::new_row(30, 6)?;
+    /// let ml = unbiased.with_divisor(Divisor::MaximumLikelihood);
+    /// // The same row measured with the n divisor has a distance 30/29
+    /// // times larger, and the same p-value.
+    /// let d2 = 12.0;
+    /// assert!((ml.p_value(d2 * 30.0 / 29.0) - unbiased.p_value(d2)).abs() < 1e-15);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn with_divisor(self, divisor: Divisor) -> Self {
+        match self {
+            Reference::InSampleBeta { n, dim, .. } => Reference::InSampleBeta { n, dim, divisor },
+            Reference::NewRowF { n, dim, .. } => Reference::NewRowF { n, dim, divisor },
+            other => other,
+        }
+    }
+
+    /// The factor that takes a squared distance of this reference's scale to
+    /// the scale of the unbiased (`n − 1`) covariance its law is stated for.
+    fn to_unbiased(&self) -> f64 {
+        match *self {
+            Reference::InSampleBeta {
+                n,
+                divisor: Divisor::MaximumLikelihood,
+                ..
+            }
+            | Reference::NewRowF {
+                n,
+                divisor: Divisor::MaximumLikelihood,
+                ..
+            } => (n as f64 - 1.0) / n as f64,
+            _ => 1.0,
+        }
     }
 
     /// The Hardin–Rocke F reference for distances from a raw minimum
@@ -255,16 +319,18 @@ impl Reference {
                 Ok(c) => c.tails(d2),
                 Err(_) => (f64::NAN, f64::NAN),
             },
-            Reference::InSampleBeta { n, dim } => {
+            Reference::InSampleBeta { n, dim, .. } => {
                 let max = self.max_squared_distance();
+                let d2 = d2 * self.to_unbiased();
+                let max = max * self.to_unbiased();
                 match beta(n, dim) {
                     Ok(_) if d2 >= max => (1.0, 0.0),
                     Ok(b) => b.tails_with_complement(d2 / max, (max - d2) / max),
                     Err(_) => (f64::NAN, f64::NAN),
                 }
             }
-            Reference::NewRowF { n, dim } => match fisher(n, dim) {
-                Ok(f) => f.tails(d2 / f_scale(n, dim)),
+            Reference::NewRowF { n, dim, .. } => match fisher(n, dim) {
+                Ok(f) => f.tails(d2 * self.to_unbiased() / f_scale(n, dim)),
                 Err(_) => (f64::NAN, f64::NAN),
             },
             Reference::RawMcdF {
@@ -290,12 +356,12 @@ impl Reference {
     }
 
     /// The largest squared distance this reference allows: `(n−1)²/n` for
-    /// in-sample rows, infinity otherwise.
+    /// in-sample rows (`n − 1` with the divisor `n`), infinity otherwise.
     pub fn max_squared_distance(&self) -> f64 {
         match *self {
             Reference::InSampleBeta { n, .. } => {
                 let nf = n as f64;
-                (nf - 1.0) * (nf - 1.0) / nf
+                (nf - 1.0) * (nf - 1.0) / nf / self.to_unbiased()
             }
             _ => f64::INFINITY,
         }
@@ -321,11 +387,13 @@ impl Reference {
     fn cutoff_unchecked(&self, alpha: f64) -> Result<f64> {
         match *self {
             Reference::ChiSquare { dim } => chi(dim)?.isf(alpha),
-            Reference::InSampleBeta { n, dim } => {
+            Reference::InSampleBeta { n, dim, .. } => {
                 let (_, complement) = beta(n, dim)?.isf_with_complement(alpha)?;
                 Ok(self.max_squared_distance() * (1.0 - complement))
             }
-            Reference::NewRowF { n, dim } => Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim)),
+            Reference::NewRowF { n, dim, .. } => {
+                Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim) / self.to_unbiased())
+            }
             Reference::RawMcdF {
                 n,
                 dim,

@@ -70,6 +70,7 @@ pub enum ChartDesign {
 /// # Ok::<(), Box<dyn std::error::Error>>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ChartData")]
 pub struct ControlChart {
     design: ChartDesign,
     location: Vec<f64>,
@@ -82,6 +83,64 @@ pub struct ControlChart {
     points: Vec<ChartPoint>,
     rounds: Vec<PhaseOneRound>,
     reached_round_cap: bool,
+}
+
+/// The serialized form of a [`ControlChart`], checked on the way in: the
+/// location matches the scatter, the subgroup size is at least 2, and the
+/// estimate holds enough points for both limits.
+#[derive(Deserialize)]
+struct ChartData {
+    design: ChartDesign,
+    location: Vec<f64>,
+    point_scatter: Scatter,
+    in_estimate: usize,
+    false_alarm: FalseAlarmRate,
+    diagnosis_depth: usize,
+    points: Vec<ChartPoint>,
+    rounds: Vec<PhaseOneRound>,
+    reached_round_cap: bool,
+}
+
+impl TryFrom<ChartData> for ControlChart {
+    type Error = Error;
+    fn try_from(d: ChartData) -> Result<Self> {
+        let p = d.point_scatter.dim();
+        if d.location.len() != p {
+            return Err(Error::Format {
+                reason: format!(
+                    "the chart's location has {} values but its scatter has {p} variables",
+                    d.location.len()
+                ),
+            });
+        }
+        check_row_finite(&d.location, 0)?;
+        if let ChartDesign::Subgroups { size } = d.design {
+            if size < 2 {
+                return Err(Error::Format {
+                    reason: format!(
+                        "a subgroup chart needs subgroups of at least 2 rows, not {size}"
+                    ),
+                });
+            }
+        }
+        let chart = ControlChart {
+            design: d.design,
+            location: d.location,
+            point_scatter: d.point_scatter,
+            in_estimate: d.in_estimate,
+            false_alarm: d.false_alarm,
+            diagnosis_depth: d.diagnosis_depth,
+            points: d.points,
+            rounds: d.rounds,
+            reached_round_cap: d.reached_round_cap,
+        };
+        for origin in [PointOrigin::InEstimate, PointOrigin::New] {
+            chart.upper_limit(origin).map_err(|e| Error::Format {
+                reason: format!("the chart's estimate cannot give a control limit: {e}"),
+            })?;
+        }
+        Ok(chart)
+    }
 }
 
 /// The charted vectors of Phase I and what the estimate is made from.

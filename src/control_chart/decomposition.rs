@@ -48,6 +48,12 @@ pub struct DecompositionTerm {
     pub given: Vec<usize>,
     /// The value of the term.
     pub value: f64,
+    /// `T²_J`: the point's T² on the conditioning variables alone (0 for
+    /// an unconditional term). The exact law of a conditional term depends
+    /// on it through the leverage of the estimated regression; see
+    /// [`ControlLimit::term_distribution`](super::ControlLimit::term_distribution).
+    #[serde(default)]
+    pub given_t_squared: f64,
 }
 
 /// The number of terms with at most `depth` conditioning variables:
@@ -170,13 +176,19 @@ pub fn terms_along(
 ) -> Result<Vec<DecompositionTerm>> {
     check_point(scatter, centred)?;
     let c = contributions(scatter, centred, &ContributionOrder::Given(order.to_vec()))?;
+    let mut given_t_squared = 0.0;
     Ok(order
         .iter()
         .enumerate()
-        .map(|(k, &j)| DecompositionTerm {
-            variable: j,
-            given: order[..k].to_vec(),
-            value: c.terms()[j],
+        .map(|(k, &j)| {
+            let term = DecompositionTerm {
+                variable: j,
+                given: order[..k].to_vec(),
+                value: c.terms()[j],
+                given_t_squared,
+            };
+            given_t_squared += term.value;
+            term
         })
         .collect())
 }
@@ -237,6 +249,7 @@ impl SubsetWalk<'_> {
                 variable: i,
                 given: self.set.clone(),
                 value,
+                given_t_squared: self.z.iter().map(|z| z * z).sum(),
             });
         }
         if level < depth {

@@ -18,7 +18,8 @@ pub struct RatedTerm {
     /// `T²_{j·J}`.
     pub value: f64,
     /// The term's upper limit at the chart's false-alarm rate, from
-    /// [`ControlLimit::term_distribution`] with `k = |J|`.
+    /// [`ControlLimit::term_distribution`] with `k = |J|` and the point's
+    /// `T²_J`.
     pub cutoff: f64,
     /// Probability that an in-control term exceeds `value`.
     pub p_value: f64,
@@ -142,22 +143,25 @@ pub(crate) fn rate_terms(
     limit: &ControlLimit,
     rate: FalseAlarmRate,
 ) -> Result<Vec<RatedTerm>> {
-    let mut cutoffs = Vec::new();
+    // The cutoff of each depth's zero-leverage law, computed once: a
+    // term's own law differs only in its scale, and cutoffs scale with it.
+    let mut cutoffs: Vec<(f64, f64)> = Vec::new();
     terms
         .into_iter()
         .map(|t| {
             let k = t.given.len();
             while cutoffs.len() <= k {
-                let dist = limit.term_distribution(cutoffs.len())?;
-                cutoffs.push((dist, dist.cutoff(rate.alpha())?));
+                let base = limit.term_distribution(cutoffs.len(), 0.0)?;
+                cutoffs.push((base.scale(), base.cutoff(rate.alpha())?));
             }
-            let (dist, cutoff) = cutoffs[k];
+            let (base_scale, base_cutoff) = cutoffs[k];
+            let dist = limit.term_distribution(k, t.given_t_squared)?;
             Ok(RatedTerm {
                 p_value: dist.p_value(t.value),
                 variable: t.variable,
                 given: t.given,
                 value: t.value,
-                cutoff,
+                cutoff: base_cutoff * (dist.scale() / base_scale),
             })
         })
         .collect()

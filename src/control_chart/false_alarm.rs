@@ -24,8 +24,22 @@ use serde::{Deserialize, Serialize};
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "FalseAlarmData")]
 pub struct FalseAlarmRate {
     alpha: f64,
+}
+
+/// The serialized form, validated by [`FalseAlarmRate::per_point`].
+#[derive(Deserialize)]
+struct FalseAlarmData {
+    alpha: f64,
+}
+
+impl TryFrom<FalseAlarmData> for FalseAlarmRate {
+    type Error = Error;
+    fn try_from(d: FalseAlarmData) -> Result<Self> {
+        Self::per_point(d.alpha)
+    }
 }
 
 impl Default for FalseAlarmRate {

@@ -43,6 +43,13 @@ pub enum ScaledDistribution {
 }
 
 impl ScaledDistribution {
+    /// The multiplier `scale`.
+    pub fn scale(&self) -> f64 {
+        match *self {
+            ScaledDistribution::Beta { scale, .. } | ScaledDistribution::F { scale, .. } => scale,
+        }
+    }
+
     /// Upper-tail probability `P(X > x)`; NaN for NaN or invalid parameters.
     pub fn p_value(&self, x: f64) -> f64 {
         if x.is_nan() {
@@ -318,36 +325,50 @@ impl ControlLimit {
     }
 
     /// The in-control law of a decomposition term `T²_{j·J}` with `k = |J|`
-    /// conditioning variables (Mason, Tracy and Young 1995, 1997):
+    /// conditioning variables, for a point whose T² on the conditioning
+    /// variables alone is `t2_given` (`T²_J`, the
+    /// [`given_t_squared`](super::decomposition::DecompositionTerm::given_t_squared)
+    /// of the term; 0 for an unconditional term). With `f` the degrees of
+    /// freedom of the scatter (`m − 1` for individuals, `m(n − 1)` for
+    /// subgroups):
     ///
     /// | design and phase | law of `T²_{j·J}` |
     /// |---|---|
-    /// | individuals, Phase I | `(m−1)²/m · Beta(1/2, (m−k−2)/2)` |
-    /// | individuals, Phase II | `(m+1)(m−1)/(m(m−k−1)) · F(1, m−k−1)` |
-    /// | subgroups, Phase I | `(m−1)/m · f/(f−k) · F(1, f−k)` |
-    /// | subgroups, Phase II | `(m+1)/m · f/(f−k) · F(1, f−k)` |
+    /// | individuals, Phase I | `((m−1)²/m − T²_J) · Beta(1/2, (m−k−2)/2)` |
+    /// | individuals, Phase II | `(m−1)/(m−k−1) · (1 + 1/m + T²_J/(m−1)) · F(1, m−k−1)` |
+    /// | subgroups, Phase I | `f/(f−k) · (1 − 1/m + T²_J/f) · F(1, f−k)` |
+    /// | subgroups, Phase II | `f/(f−k) · (1 + 1/m + T²_J/f) · F(1, f−k)` |
     ///
-    /// The individuals rows are the published limits (for `k = 0` they are
-    /// the chart limits with `p = 1`). The subgroup rows are our extension
-    /// by the same construction, with the pooled within-subgroup degrees of
-    /// freedom `f = m(n−1)` in place of `m − 1`; for `k = 0` they reduce to
-    /// the subgroup chart limits with `p = 1`. They are not from the
-    /// papers.
+    /// Each row is exact under normality, conditionally on the conditioning
+    /// variables and therefore also unconditionally. The term is the squared
+    /// residual of the regression of variable `j` on `J` estimated from the
+    /// Phase I points, divided by the residual variance `s²_{j·J}` (divisor
+    /// `f`); `f s²_{j·J}/σ²` is χ² with `f − k` degrees of freedom. For a
+    /// point independent of the estimate the residual has variance
+    /// `σ² (1 + 1/m + h)` with the regression leverage `h = T²_J/f`
+    /// (standard prediction-interval algebra of least squares), hence the F
+    /// rows; for a Phase I individual it is the internally studentized
+    /// residual of a fitting point, with variance `σ² (1 − 1/m − h)`, and
+    /// `r²/(m−k−1) ~ Beta(1/2, (m−k−2)/2)`, hence the Beta row. Subgroup
+    /// means are independent of the pooled within-subgroup scatter, so their
+    /// Phase I row is an F row with `1 − 1/m`.
     ///
-    /// What we implemented, precisely: the Phase II laws as stated by
-    /// Mason, Tracy and Young (1995, 1997); the Phase I Beta laws as we
-    /// recall them from the same authors (recalled from memory, not checked
-    /// against the printed papers). Unconditional terms follow their law
-    /// exactly; conditional laws are approximations, since they ignore the
-    /// error of the estimated regression at the point's own values: in the
-    /// suite's simulation (m = 30, p = 3, α = 0.01) an unconditional term
-    /// exceeded its cutoff 0.99% of the time and a term with two
-    /// conditioning variables 1.27%.
+    /// At `T²_J = 0` the individuals rows are the laws published by Mason,
+    /// Tracy and Young (1995, 1997), and for `k = 0` every row is the chart
+    /// law with `p = 1`. Those published laws leave out the leverage term:
+    /// in the suite's simulation (m = 30, p = 3, α = 0.01) a term with two
+    /// conditioning variables exceeded their cutoff 1.27% of the time; with
+    /// the leverage term it is at the nominal rate (see the calibration
+    /// test in `tests/control_chart.rs`).
     ///
     /// # Errors
     /// As [`distribution`](Self::distribution); [`Error::InvalidParameter`]
-    /// unless `k < p`.
-    pub fn term_distribution(&self, conditioned: usize) -> Result<ScaledDistribution> {
+    /// unless `k < p` and `t2_given` is finite and non-negative.
+    pub fn term_distribution(
+        &self,
+        conditioned: usize,
+        t2_given: f64,
+    ) -> Result<ScaledDistribution> {
         self.distribution()?;
         if conditioned >= self.dim() {
             return Err(Error::invalid(
@@ -358,7 +379,64 @@ impl ControlLimit {
                 ),
             ));
         }
-        self.term_or_total(Some(conditioned))
+        if !(t2_given.is_finite() && t2_given >= 0.0) {
+            return Err(Error::invalid(
+                "T² of the conditioning variables",
+                format!("{t2_given} is not a finite non-negative number"),
+            ));
+        }
+        let base = self.term_or_total(Some(conditioned))?;
+        Ok(self.with_leverage(base, conditioned, t2_given))
+    }
+
+    /// Adds the regression leverage of a point with `T²_J = t2_given` to the
+    /// zero-leverage term law `base` (see [`term_distribution`](Self::term_distribution)).
+    fn with_leverage(
+        &self,
+        base: ScaledDistribution,
+        conditioned: usize,
+        t2_given: f64,
+    ) -> ScaledDistribution {
+        if conditioned == 0 || t2_given == 0.0 {
+            return base;
+        }
+        match (*self, base) {
+            (
+                ControlLimit::IndividualsPhaseOne { .. },
+                ScaledDistribution::Beta { scale, a, b },
+            ) => ScaledDistribution::Beta {
+                // A fitting point has T²_J ≤ (m−1)²/m; rounding may put it
+                // a hair above, where the term is 0: keep the law proper.
+                scale: (scale - t2_given).max(scale * f64::EPSILON),
+                a,
+                b,
+            },
+            (limit, ScaledDistribution::F { scale, d1, d2 }) => {
+                let (m, f) = match limit {
+                    ControlLimit::IndividualsPhaseOne { observations, .. }
+                    | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
+                        (observations as f64, observations as f64 - 1.0)
+                    }
+                    ControlLimit::SubgroupsPhaseOne {
+                        subgroups, size, ..
+                    }
+                    | ControlLimit::SubgroupsPhaseTwo {
+                        subgroups, size, ..
+                    } => (subgroups as f64, subgroups as f64 * (size as f64 - 1.0)),
+                };
+                let spread = if limit.origin() == PointOrigin::New {
+                    1.0 + 1.0 / m
+                } else {
+                    1.0 - 1.0 / m
+                };
+                ScaledDistribution::F {
+                    scale: scale * (spread + t2_given / f) / spread,
+                    d1,
+                    d2,
+                }
+            }
+            (_, other) => other,
+        }
     }
 
     fn term_or_total(&self, conditioned: Option<usize>) -> Result<ScaledDistribution> {

@@ -82,6 +82,7 @@ pub struct MeanInterval {
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ComparisonData")]
 pub struct MeanComparison {
     kind: MeanTestKind,
     estimate: Vec<f64>,
@@ -95,6 +96,58 @@ pub struct MeanComparison {
     denominator_dof: f64,
     p_value: f64,
     per_variable_dof: Vec<f64>,
+}
+
+/// The serialized form of a [`MeanComparison`]: checked on the way in (one
+/// estimate, hypothesized value, standard error and degrees of freedom per
+/// variable), with F and p recomputed from the rest.
+#[derive(Deserialize)]
+struct ComparisonData {
+    kind: MeanTestKind,
+    estimate: Vec<f64>,
+    hypothesized: Vec<f64>,
+    standard_errors: Vec<f64>,
+    sample_sizes: Vec<usize>,
+    t_squared: f64,
+    t_squared_per_f: f64,
+    numerator_dof: f64,
+    denominator_dof: f64,
+    per_variable_dof: Vec<f64>,
+}
+
+impl TryFrom<ComparisonData> for MeanComparison {
+    type Error = Error;
+    fn try_from(d: ComparisonData) -> Result<Self> {
+        let p = d.estimate.len();
+        for (what, len) in [
+            ("hypothesized values", d.hypothesized.len()),
+            ("standard errors", d.standard_errors.len()),
+            ("per-variable degrees of freedom", d.per_variable_dof.len()),
+        ] {
+            if len != p {
+                return Err(Error::Format {
+                    reason: format!("{len} {what} for {p} estimated means"),
+                });
+            }
+        }
+        if p == 0 {
+            return Err(Error::Format {
+                reason: "a mean comparison needs at least one variable".into(),
+            });
+        }
+        Self::from_parts(ComparisonParts {
+            kind: d.kind,
+            estimate: d.estimate,
+            hypothesized: d.hypothesized,
+            standard_errors: d.standard_errors,
+            sample_sizes: d.sample_sizes,
+            t_squared: d.t_squared,
+            t_squared_per_f: d.t_squared_per_f,
+            numerator_dof: d.numerator_dof,
+            denominator_dof: d.denominator_dof,
+            per_variable_dof: d.per_variable_dof,
+        })
+    }
 }
 
 /// What a test computes; [`MeanComparison::from_parts`] adds F and p.

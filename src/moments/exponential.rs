@@ -30,9 +30,27 @@ use serde::{Deserialize, Serialize};
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ExponentialData")]
 pub struct ExponentialMoments {
     forgetting: f64,
     state: MomentAccumulator,
+}
+
+/// The serialized form; the forgetting factor is checked as in
+/// [`ExponentialMoments::new`] (the accumulator checks itself).
+#[derive(Deserialize)]
+struct ExponentialData {
+    forgetting: f64,
+    state: MomentAccumulator,
+}
+
+impl TryFrom<ExponentialData> for ExponentialMoments {
+    type Error = Error;
+    fn try_from(d: ExponentialData) -> Result<Self> {
+        let mut checked = ExponentialMoments::new(d.state.dim(), d.forgetting)?;
+        checked.state = d.state;
+        Ok(checked)
+    }
 }
 
 impl ExponentialMoments {

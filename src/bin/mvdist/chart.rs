@@ -3,15 +3,13 @@
 //! points (with limits and diagnoses) and an SVG picture.
 
 use crate::fit::explain_fit_error;
-use crate::output::csv_field;
-use crate::output::{write_atomically, PendingFile};
+use crate::output::{csv_field, load_model_file, number_field, write_atomically, PendingFile};
 use crate::table::{read_table, read_table_named, ColumnChoice};
 use crate::CliError;
 use mvdist::control_chart::{
     chart_svg, ChartPoint, ControlChart, FalseAlarmRate, PhaseOneSettings, PhaseOneStart,
     PointOrigin, PointStatus, SignalRemoval,
 };
-use mvdist::model_file::ModelFile;
 use mvdist::RowOrigin;
 use std::io::Write;
 use std::path::PathBuf;
@@ -109,14 +107,7 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let start = match &args.start_model {
         None => PhaseOneStart::AllRows,
         Some(path) => {
-            let text = std::fs::read_to_string(path).map_err(|e| {
-                CliError(format!(
-                    "{}: cannot read the model file: {e}",
-                    path.display()
-                ))
-            })?;
-            let file = ModelFile::from_json(&text)
-                .map_err(|e| CliError(format!("{}: {e}", path.display())))?;
+            let file = load_model_file(path)?;
             if file.variables() != names.as_slice() {
                 return Err(CliError(format!(
                     "{}: the start model's variables ({}) are not the chart's ({})",
@@ -256,9 +247,9 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                 pt.index + 1,
                 first + size - 1,
                 status_text(&pt.status),
-                pt.t_squared,
-                pt.upper_limit,
-                pt.p_value,
+                number_field(pt.t_squared),
+                number_field(pt.upper_limit),
+                number_field(pt.p_value),
                 pt.signal
             )
             .map_err(io)?;

@@ -1,6 +1,5 @@
 //! `mvdist fit`: estimate location and scatter and write a model file.
 
-use crate::output::write_atomically;
 use crate::table::{read_table, ColumnChoice};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
@@ -118,11 +117,7 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
     }
     .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?;
     let file = ModelFile::new(table.names.clone(), model)?;
-    if args.binary {
-        crate::output::write_bytes_atomically(&args.out, &file.to_bytes())?;
-    } else {
-        write_atomically(&args.out, &(file.to_json() + "\n"))?;
-    }
+    crate::output::save_model_file(&file, &args.out, args.binary)?;
     println!(
         "fitted a {} model on {} rows × {} variables ({}); wrote {}",
         clap::ValueEnum::to_possible_value(&args.estimator)

@@ -1,13 +1,13 @@
 //! `mvdist score`: squared distances, p-values, flags and the top variable
 //! for every row of a CSV file, streamed.
 
-use crate::output::{csv_field, PendingFile};
+use crate::output::{csv_field, load_model_file, number_field, PendingFile};
 use crate::table::{layout_for, missing_value_error, open, parse_record, read_error, RowOutcome};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
 use mvdist::{ContributionOrder, Reference, RowOrigin};
 use std::io::{IsTerminal, Write};
-use std::path::{Path, PathBuf};
+use std::path::PathBuf;
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
 pub enum AdjustChoice {
@@ -45,16 +45,6 @@ pub struct ScoreArgs {
     /// instead of stopping.
     #[arg(long)]
     pub skip_incomplete: bool,
-}
-
-fn load_model(path: &Path) -> Result<ModelFile, CliError> {
-    let text = std::fs::read_to_string(path).map_err(|e| {
-        CliError(format!(
-            "{}: cannot read the model file: {e}",
-            path.display()
-        ))
-    })?;
-    ModelFile::from_json(&text).map_err(|e| CliError(format!("{}: {e}", path.display())))
 }
 
 /// One pass over the data, calling `each` for every row with its line,
@@ -129,7 +119,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
             args.alpha
         )));
     }
-    let file = load_model(&args.model)?;
+    let file = load_model_file(&args.model)?;
     let model = file.model();
     let origin = if args.in_sample {
         RowOrigin::InSample
@@ -221,7 +211,9 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
                 let share = if d2 > 0.0 { why.terms()[top] / d2 } else { 0.0 };
                 writeln!(
                     out.writer(),
-                    "{row}{label_field},{d2},{p},{flag},{},{share:.4},ok",
+                    "{row}{label_field},{},{},{flag},{},{share:.4},ok",
+                    number_field(d2),
+                    number_field(p),
                     csv_field(&file.variables()[top])
                 )
                 .map_err(io)?;
