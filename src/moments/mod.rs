@@ -38,7 +38,9 @@ use serde::{Deserialize, Serialize};
 /// (read as reliability weights), the unbiased denominator is
 /// `W − Σw²/W` with `W = Σ w_i`, and the maximum-likelihood one is `W`.
 ///
-/// The p-values of [`crate::calibration`] assume the unbiased divisor.
+/// The F and Beta laws of [`crate::calibration`] are stated for the
+/// unbiased divisor; a model fitted with the other one has its distances
+/// rescaled by its reference ([`crate::Reference::with_divisor`]).
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
 pub enum Divisor {
