@@ -216,7 +216,7 @@ impl Reference {
 
     /// The factor that takes a squared distance of this reference's scale to
     /// the scale of the unbiased (`n − 1`) covariance its law is stated for.
-    fn to_unbiased(&self) -> f64 {
+    fn unbiased_factor(&self) -> f64 {
         match *self {
             Reference::InSampleBeta {
                 n,
@@ -321,8 +321,8 @@ impl Reference {
             },
             Reference::InSampleBeta { n, dim, .. } => {
                 let max = self.max_squared_distance();
-                let d2 = d2 * self.to_unbiased();
-                let max = max * self.to_unbiased();
+                let d2 = d2 * self.unbiased_factor();
+                let max = max * self.unbiased_factor();
                 match beta(n, dim) {
                     Ok(_) if d2 >= max => (1.0, 0.0),
                     Ok(b) => b.tails_with_complement(d2 / max, (max - d2) / max),
@@ -330,7 +330,7 @@ impl Reference {
                 }
             }
             Reference::NewRowF { n, dim, .. } => match fisher(n, dim) {
-                Ok(f) => f.tails(d2 * self.to_unbiased() / f_scale(n, dim)),
+                Ok(f) => f.tails(d2 * self.unbiased_factor() / f_scale(n, dim)),
                 Err(_) => (f64::NAN, f64::NAN),
             },
             Reference::RawMcdF {
@@ -361,7 +361,7 @@ impl Reference {
         match *self {
             Reference::InSampleBeta { n, .. } => {
                 let nf = n as f64;
-                (nf - 1.0) * (nf - 1.0) / nf / self.to_unbiased()
+                (nf - 1.0) * (nf - 1.0) / nf / self.unbiased_factor()
             }
             _ => f64::INFINITY,
         }
@@ -392,7 +392,7 @@ impl Reference {
                 Ok(self.max_squared_distance() * (1.0 - complement))
             }
             Reference::NewRowF { n, dim, .. } => {
-                Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim) / self.to_unbiased())
+                Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim) / self.unbiased_factor())
             }
             Reference::RawMcdF {
                 n,
