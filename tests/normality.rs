@@ -534,4 +534,73 @@ proptest! {
         let (rx, ry) = (RoystonH::compute(x.view()).unwrap(), RoystonH::compute(y.view()).unwrap());
         prop_assert!((rx.statistic() - ry.statistic()).abs() < 1e-7 * rx.statistic().max(1.0));
     }
+
+    #[test]
+    fn tests_ignore_the_sign_and_order_of_variables(seed in any::<u64>(), skew in 0.0..1.5f64) {
+        // No Shapiro–Wilk result, no standardized moment and no whitened
+        // norm changes when a variable is negated or the variables are
+        // reordered, so none of the four statistics may (an invariance
+        // every test must have; it does not share our reading of any
+        // formula). Royston's H failed it while it used signed
+        // correlations. Data: a strongly correlated pair (r ≈ ±0.9), a
+        // skewed column and a lognormal one.
+        let mut rng = Rng(seed);
+        let (n, p) = (60, 4);
+        let mut x = Array2::zeros((n, p));
+        for i in 0..n {
+            let z: Vec<f64> = (0..p).map(|_| rng.normal()).collect();
+            x[(i, 0)] = z[0];
+            x[(i, 1)] = 0.9 * z[0] + 0.45 * z[1];
+            x[(i, 2)] = z[2] + skew * z[2] * z[2];
+            x[(i, 3)] = (0.8 * z[3] + 0.3 * z[0]).exp();
+        }
+        let stats = |x: &Array2<f64>| -> [f64; 5] {
+            let m = Mardia::compute(x.view()).unwrap();
+            [
+                m.skewness(),
+                m.kurtosis(),
+                HenzeZirkler::compute(x.view()).unwrap().statistic(),
+                RoystonH::compute(x.view()).unwrap().statistic(),
+                DoornikHansen::compute(x.view()).unwrap().statistic(),
+            ]
+        };
+        let base = stats(&x);
+        let names = ["Mardia skewness", "Mardia kurtosis", "Henze-Zirkler", "Royston H", "Doornik-Hansen"];
+        for j in 0..p {
+            let mut y = x.clone();
+            y.column_mut(j).mapv_inplace(|v| -v);
+            for (k, (a, b)) in base.iter().zip(stats(&y)).enumerate() {
+                prop_assert!((a - b).abs() <= 1e-9 * a.abs().max(1.0), "{} with column {j} negated: {a} vs {b}", names[k]);
+            }
+        }
+        let order = [2usize, 0, 3, 1];
+        let y = Array2::from_shape_fn((n, p), |(i, j)| x[(i, order[j])]);
+        for (k, (a, b)) in base.iter().zip(stats(&y)).enumerate() {
+            prop_assert!((a - b).abs() <= 1e-9 * a.abs().max(1.0), "{} with columns reordered: {a} vs {b}", names[k]);
+        }
+    }
+
+    #[test]
+    fn mardia_and_henze_zirkler_are_affine_invariant(seed in any::<u64>()) {
+        // Both are functions of the Mahalanobis angles and distances of the
+        // rows (Mardia 1970; Henze and Zirkler 1990), so any non-singular
+        // map x ↦ A x + b leaves them unchanged. A: a random full matrix
+        // (diagonally dominated, so non-singular), b random.
+        let mut rng = Rng(seed);
+        let (n, p) = (40, 3);
+        let x = Array2::from_shape_fn((n, p), |_| rng.normal() + 0.5 * rng.uniform().powi(3));
+        let a = Array2::from_shape_fn((p, p), |(i, j)| if i == j { 3.0 + rng.uniform() } else { rng.normal() });
+        let b: Vec<f64> = (0..p).map(|_| 100.0 * rng.normal()).collect();
+        let mut y = x.dot(&a.t());
+        for mut row in y.outer_iter_mut() {
+            for j in 0..p {
+                row[j] += b[j];
+            }
+        }
+        let (mx, my) = (Mardia::compute(x.view()).unwrap(), Mardia::compute(y.view()).unwrap());
+        prop_assert!(rel(mx.skewness(), my.skewness()) < 1e-8);
+        prop_assert!(rel(mx.kurtosis(), my.kurtosis()) < 1e-10);
+        let (hx, hy) = (HenzeZirkler::compute(x.view()).unwrap(), HenzeZirkler::compute(y.view()).unwrap());
+        prop_assert!((hx.statistic() - hy.statistic()).abs() < 1e-9 * hx.statistic().max(1.0));
+    }
 }

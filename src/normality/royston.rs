@@ -11,8 +11,9 @@
 //!
 //! where the equivalent degrees of freedom `e = p / (1 + (p − 1) c̄)`
 //! account for the correlation between the variables: `c̄` is the mean over
-//! `i ≠ j` of `cᵢⱼ = rᵢⱼ^λ (1 − (μ/ν)(1 − rᵢⱼ)^μ)`, with `rᵢⱼ` the sample
-//! correlations, `λ = 5`, `μ = 0.715` and
+//! `i ≠ j` of `cᵢⱼ = |rᵢⱼ|^λ (1 − (μ/ν)(1 − |rᵢⱼ|)^μ)`, with `rᵢⱼ` the sample
+//! correlations (their magnitudes: negating a variable changes no
+//! Shapiro–Wilk result, so it must not change `H`), `λ = 5`, `μ = 0.715` and
 //! `ν = 0.21364 + 0.015124 (ln n)² − 0.0018034 (ln n)³` (Royston 1983). For
 //! one variable `e = 1` and `H = R₁`.
 //!
@@ -91,7 +92,9 @@ impl RoystonH {
             let mut sum = 0.0;
             for i in 0..p {
                 for j in (0..p).filter(|&j| j != i) {
-                    let r = correlation[(i, j)].clamp(-1.0, 1.0);
+                    // Magnitudes: negating a variable changes no
+                    // Shapiro–Wilk result, so it must not change H.
+                    let r = correlation[(i, j)].abs().min(1.0);
                     sum += r.powi(LAMBDA) * (1.0 - MU / nu * (1.0 - r).powf(MU));
                 }
             }

@@ -37,7 +37,9 @@ The formulas (the papers are cited in src/normality/):
     and variance of T.
   Royston (1983, 1992): R_j = Phi^-1(P_j / 2)^2 from the Shapiro-Wilk p-value
     P_j of each variable; e = p / (1 + (p-1) cbar), cbar the mean of
-    c_ij = r_ij^5 (1 - (mu/nu)(1 - r_ij)^mu), mu = 0.715,
+    c_ij = |r_ij|^5 (1 - (mu/nu)(1 - |r_ij|)^mu), mu = 0.715 (magnitudes: the
+    statistic cannot depend on the sign of a variable, as no Shapiro-Wilk
+    result does),
     nu = 0.21364 + 0.015124 ln(n)^2 - 0.0018034 ln(n)^3; H = e sum R_j / p
     ~ chi2(e).
   Doornik-Hansen (2008): transform with C^-1/2 V, C the correlation matrix,
@@ -210,7 +212,7 @@ def henze_zirkler(X):
 
 def royston(X):
     n, p = X.shape
-    R = np.corrcoef(X, rowvar=False)
+    R = np.abs(np.corrcoef(X, rowvar=False))
     res = [st.shapiro(X[:, j]) for j in range(p)]
     pv = np.array([r.pvalue for r in res])
     Rj = sp.ndtri(pv / 2) ** 2
