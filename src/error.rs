@@ -119,6 +119,13 @@ pub enum Error {
         /// The hyperplane `aᵀx = b` and the rows on it.
         hyperplane: crate::robust::Hyperplane,
     },
+    /// A quantile or cutoff exists but is not representable as an `f64`
+    /// (beyond the largest finite number, or closer to the edge of the
+    /// support than the smallest normal number).
+    NotRepresentable {
+        /// What could not be represented, with the parameters.
+        reason: String,
+    },
     /// A saved model or accumulator is malformed.
     Format {
         /// What is wrong with it.
@@ -227,6 +234,10 @@ impl fmt::Display for Error {
                 hyperplane.subset_size()
             ),
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
+            Error::NotRepresentable { reason } => write!(
+                f,
+                "{reason} is not representable as a 64-bit float; use a larger alpha (or work with p-values instead of cutoffs)"
+            ),
             Error::Io { reason } => write!(f, "input/output error: {reason}"),
             Error::TooFewGroups { found } => write!(
                 f,

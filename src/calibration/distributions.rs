@@ -67,7 +67,8 @@ impl ChiSquared {
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn isf(&self, alpha: f64) -> Result<f64> {
         check_alpha(alpha)?;
-        finite_quantile(upper_quantile_positive(alpha, |x| self.tails(x)))
+        upper_quantile_positive(alpha, |x| self.tails(x))
+            .ok_or_else(|| not_representable("χ²", &[self.dof], alpha))
     }
 }
 
@@ -146,7 +147,9 @@ impl BetaDistribution {
         let (lo_tail_target, use_lower) = (1.0 - alpha, alpha > 0.5);
         // Logit parametrization: x = 1/(1+e^{-t}), 1 − x = 1/(1+e^{t}).
         let split = |t: f64| (1.0 / (1.0 + (-t).exp()), 1.0 / (1.0 + t.exp()));
-        let t = solve_decreasing(-745.0, 745.0, |t| {
+        // |t| ≤ 708: both x and 1 − x stay normal numbers (≥ e^{-708}).
+        let bound = 708.0;
+        let t = solve_decreasing(-bound, bound, |t| {
             let (x, y) = split(t);
             let (lo, up) = self.tails_with_complement(x, y);
             if use_lower {
@@ -156,10 +159,12 @@ impl BetaDistribution {
                 up.ln() - ln_alpha
             }
         });
-        let (x, y) = split(t);
-        finite_quantile(x)?;
-        finite_quantile(y)?;
-        Ok((x, y))
+        if t.abs() >= bound {
+            // The quantile is closer to 0 or 1 than e^{-708}: one of x and
+            // 1 − x would be subnormal or 0.
+            return Err(not_representable("Beta", &[self.a, self.b], alpha));
+        }
+        Ok(split(t))
     }
 }
 
@@ -199,12 +204,23 @@ impl FDistribution {
         if x <= 0.0 {
             return (0.0, 1.0);
         }
-        let g = self.d1 * x;
-        if g == f64::INFINITY {
+        if x == f64::INFINITY {
             return (1.0, 0.0);
         }
-        let s = g + self.d2;
-        beta_tails(0.5 * self.d1, 0.5 * self.d2, g / s, self.d2 / s)
+        // With r = d2/(d1·x): d1·x/(d1·x + d2) = 1/(1 + r) and
+        // d2/(d1·x + d2) = r/(1 + r). Formed from r, neither overflows
+        // when d1·x would.
+        let r = self.d2 / self.d1 / x;
+        if r == f64::INFINITY {
+            return (0.0, 1.0);
+        }
+        let (lower_arg, upper_arg) = if r > 1.0 {
+            let g = 1.0 / r;
+            (g / (1.0 + g), 1.0 / (1.0 + g))
+        } else {
+            (1.0 / (1.0 + r), r / (1.0 + r))
+        };
+        beta_tails(0.5 * self.d1, 0.5 * self.d2, lower_arg, upper_arg)
     }
 
     /// Upper tail `P(X > x)`.
@@ -223,38 +239,40 @@ impl FDistribution {
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
     pub fn isf(&self, alpha: f64) -> Result<f64> {
         check_alpha(alpha)?;
-        finite_quantile(upper_quantile_positive(alpha, |x| self.tails(x)))
+        upper_quantile_positive(alpha, |x| self.tails(x))
+            .ok_or_else(|| not_representable("F", &[self.d1, self.d2], alpha))
     }
 }
 
-fn finite_quantile(x: f64) -> Result<f64> {
-    if x.is_finite() {
-        Ok(x)
-    } else {
-        Err(Error::invalid(
-            "alpha",
-            "the quantile is not representable for these parameters",
-        ))
+fn not_representable(law: &str, parameters: &[f64], alpha: f64) -> Error {
+    let parameters: Vec<String> = parameters.iter().map(|v| v.to_string()).collect();
+    Error::NotRepresentable {
+        reason: format!(
+            "the upper {alpha} quantile of {law}({})",
+            parameters.join(", ")
+        ),
     }
 }
 
 /// Upper quantile of a distribution on `(0, ∞)`, solved in `t = ln x`
-/// against whichever tail is the smaller.
-fn upper_quantile_positive(alpha: f64, tails: impl Fn(f64) -> (f64, f64)) -> f64 {
+/// against whichever tail is the smaller; `None` when it lies beyond the
+/// largest finite number or below the smallest normal one.
+fn upper_quantile_positive(alpha: f64, tails: impl Fn(f64) -> (f64, f64)) -> Option<f64> {
     let ln_alpha = alpha.ln();
     let ln_lower_target = (1.0 - alpha).ln();
     let use_lower = alpha > 0.5;
-    let t = solve_decreasing(-745.0, 709.0, |t| {
-        let (lo, up) = tails(t.exp());
+    let (lo, hi) = (f64::MIN_POSITIVE.ln(), f64::MAX.ln());
+    let t = solve_decreasing(lo, hi, |t| {
+        let (lower, upper) = tails(t.exp());
         if use_lower {
-            ln_lower_target - lo.ln()
+            ln_lower_target - lower.ln()
         } else {
-            up.ln() - ln_alpha
+            upper.ln() - ln_alpha
         }
     });
-    if t >= 708.9 {
-        // The quantile lies beyond the largest finite number.
-        return f64::INFINITY;
+    let x = t.exp();
+    if t <= lo || t >= hi || !x.is_finite() || x < f64::MIN_POSITIVE {
+        return None;
     }
-    t.exp()
+    Some(x)
 }

@@ -377,10 +377,9 @@ impl Reference {
         if c.is_finite() {
             Ok(c)
         } else {
-            Err(Error::invalid(
-                "alpha",
-                format!("the cutoff for alpha = {alpha} is beyond the largest finite number"),
-            ))
+            Err(Error::NotRepresentable {
+                reason: format!("the cutoff for alpha = {alpha} of {self:?}"),
+            })
         }
     }
 
@@ -388,8 +387,10 @@ impl Reference {
         match *self {
             Reference::ChiSquare { dim } => chi(dim)?.isf(alpha),
             Reference::InSampleBeta { n, dim, .. } => {
-                let (_, complement) = beta(n, dim)?.isf_with_complement(alpha)?;
-                Ok(self.max_squared_distance() * (1.0 - complement))
+                // x itself, not 1 − (1 − x): near α → 1 the quantile is
+                // tiny and its complement carries none of its digits.
+                let (x, _) = beta(n, dim)?.isf_with_complement(alpha)?;
+                Ok(self.max_squared_distance() * x)
             }
             Reference::NewRowF { n, dim, .. } => {
                 Ok(fisher(n, dim)?.isf(alpha)? * f_scale(n, dim) / self.unbiased_factor())

@@ -44,6 +44,19 @@ pub(crate) fn log1p_gap(u: f64) -> f64 {
     }
 }
 
+/// `u - ln(1 + u)` where `ratio = 1 + u` is also known to full relative
+/// precision (as `x/x₀` near the edge of a distribution's support): the
+/// series for small `u`, and `u - ln(ratio)` otherwise, so that a ratio far
+/// below 1 (a far lower tail) keeps its digits instead of being rounded
+/// through `1 + u`.
+fn log1p_gap_with_ratio(u: f64, ratio: f64) -> f64 {
+    if u.abs() < 0.5 {
+        log1p_gap(u)
+    } else {
+        u - ratio.ln()
+    }
+}
+
 /// Stirling's remainder `ln Γ(z) - [(z - ½) ln z - z + ½ ln 2π]`, for z ≥ 10.
 fn stirling_remainder(z: f64) -> f64 {
     let w = 1.0 / (z * z);
@@ -78,7 +91,8 @@ pub(crate) fn ln_beta(a: f64, b: f64) -> f64 {
 /// `ln [x^a e^{-x} / Γ(a)]`.
 fn gamma_prefactor_ln(a: f64, x: f64) -> f64 {
     if a >= 10.0 {
-        -a * log1p_gap((x - a) / a) + 0.5 * (a / (2.0 * std::f64::consts::PI)).ln()
+        -a * log1p_gap_with_ratio((x - a) / a, x / a)
+            + 0.5 * (a / (2.0 * std::f64::consts::PI)).ln()
             - stirling_remainder(a)
     } else {
         a * x.ln() - x - ln_gamma(a)
@@ -147,11 +161,14 @@ fn beta_prefactor_ln(a: f64, b: f64, x: f64, y: f64) -> f64 {
     if a.min(b) >= 10.0 {
         // Around the centre x0 = a / (a + b): the first-order terms cancel
         // exactly, leaving -a·g(t/x0) - b·g(-t/y0) with g(u) = u - ln(1+u).
+        // In the far tails 1 + t/x0 = x/x0 (or 1 − t/y0 = y/y0) is far
+        // below 1 and is taken from x (or y) directly, not through t.
         let s = a + b;
         let x0 = a / s;
         let y0 = b / s;
         let t = if x <= 0.5 { x - x0 } else { y0 - y };
-        let e = -a * log1p_gap(t / x0) - b * log1p_gap(-t / y0);
+        let e =
+            -a * log1p_gap_with_ratio(t / x0, x / x0) - b * log1p_gap_with_ratio(-t / y0, y / y0);
         e + 0.5 * (a * b / (2.0 * std::f64::consts::PI * s)).ln() + stirling_remainder(s)
             - stirling_remainder(a)
             - stirling_remainder(b)

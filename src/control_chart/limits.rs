@@ -79,8 +79,9 @@ impl ScaledDistribution {
         let value = match *self {
             ScaledDistribution::Beta { scale, a, b } => {
                 positive_scale(scale)?;
-                let (_, complement) = BetaDistribution::new(a, b)?.isf_with_complement(alpha)?;
-                scale * (1.0 - complement)
+                // x itself: near α → 1 it is tiny and 1 − (1 − x) loses it.
+                let (x, _) = BetaDistribution::new(a, b)?.isf_with_complement(alpha)?;
+                scale * x
             }
             ScaledDistribution::F { scale, d1, d2 } => {
                 positive_scale(scale)?;
@@ -90,10 +91,9 @@ impl ScaledDistribution {
         if value.is_finite() {
             Ok(value)
         } else {
-            Err(Error::invalid(
-                "alpha",
-                format!("the cutoff for alpha = {alpha} is not a finite number"),
-            ))
+            Err(Error::NotRepresentable {
+                reason: format!("the cutoff for alpha = {alpha} of {self:?}"),
+            })
         }
     }
 }
