@@ -764,6 +764,20 @@ fn mutated_serialized_values_never_panic() {
             let _ = (e.statistic(), e.chi_square(), e.dim());
         });
     }
+    survives_mutations(&ChiSquared::new(4.5).unwrap(), |c| {
+        let _ = (c.sf(3.0), c.isf(0.01));
+    });
+    survives_mutations(&BetaDistribution::new(2.5, 7.0).unwrap(), |b| {
+        let _ = (b.sf(0.3), b.isf_with_complement(0.01));
+    });
+    survives_mutations(&FDistribution::new(3.0, 12.0).unwrap(), |f| {
+        let _ = (f.sf(3.0), f.isf(0.01));
+    });
+    for bad in [r#"{"dof":-1.0}"#, r#"{"dof":0.0}"#] {
+        assert!(serde_json::from_str::<ChiSquared>(bad).is_err());
+    }
+    assert!(serde_json::from_str::<BetaDistribution>(r#"{"a":1.0,"b":-2.0}"#).is_err());
+    assert!(serde_json::from_str::<FDistribution>(r#"{"d1":0.0,"d2":3.0}"#).is_err());
     survives_mutations(&Mardia::compute(rows).unwrap(), |m| {
         let _ = (
             m.skewness_p_value(),

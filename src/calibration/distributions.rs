@@ -31,6 +31,7 @@ fn check_alpha(alpha: f64) -> Result<()> {
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ChiSquaredData")]
 pub struct ChiSquared {
     dof: f64,
 }
@@ -84,6 +85,7 @@ impl ChiSquared {
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "BetaDistributionData")]
 pub struct BetaDistribution {
     a: f64,
     b: f64,
@@ -180,6 +182,7 @@ impl BetaDistribution {
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "FDistributionData")]
 pub struct FDistribution {
     d1: f64,
     d2: f64,
@@ -275,4 +278,45 @@ fn upper_quantile_positive(alpha: f64, tails: impl Fn(f64) -> (f64, f64)) -> Opt
         return None;
     }
     Some(x)
+}
+
+/// The serialized form of [`ChiSquared`], validated by its constructor.
+#[derive(Deserialize)]
+struct ChiSquaredData {
+    dof: f64,
+}
+
+impl TryFrom<ChiSquaredData> for ChiSquared {
+    type Error = Error;
+    fn try_from(d: ChiSquaredData) -> Result<Self> {
+        ChiSquared::new(d.dof)
+    }
+}
+
+/// The serialized form of [`BetaDistribution`], validated by its constructor.
+#[derive(Deserialize)]
+struct BetaDistributionData {
+    a: f64,
+    b: f64,
+}
+
+impl TryFrom<BetaDistributionData> for BetaDistribution {
+    type Error = Error;
+    fn try_from(d: BetaDistributionData) -> Result<Self> {
+        BetaDistribution::new(d.a, d.b)
+    }
+}
+
+/// The serialized form of [`FDistribution`], validated by its constructor.
+#[derive(Deserialize)]
+struct FDistributionData {
+    d1: f64,
+    d2: f64,
+}
+
+impl TryFrom<FDistributionData> for FDistribution {
+    type Error = Error;
+    fn try_from(d: FDistributionData) -> Result<Self> {
+        FDistribution::new(d.d1, d.d2)
+    }
 }
