@@ -236,7 +236,7 @@ impl fmt::Display for Error {
             Error::Format { reason } => write!(f, "malformed model data: {reason}"),
             Error::NotRepresentable { reason } => write!(
                 f,
-                "{reason} is not representable as a 64-bit float; use a larger alpha (or work with p-values instead of cutoffs)"
+                "{reason} is not representable as a 64-bit float; choose an alpha less close to 0 or 1, or compare p-values instead of cutoffs"
             ),
             Error::Io { reason } => write!(f, "input/output error: {reason}"),
             Error::TooFewGroups { found } => write!(

@@ -320,9 +320,10 @@ impl Reference {
                 Err(_) => (f64::NAN, f64::NAN),
             },
             Reference::InSampleBeta { n, dim, .. } => {
-                let max = self.max_squared_distance();
+                // On the unbiased scale the largest distance is (n−1)²/n.
+                let nf = n as f64;
+                let max = (nf - 1.0) * (nf - 1.0) / nf;
                 let d2 = d2 * self.unbiased_factor();
-                let max = max * self.unbiased_factor();
                 match beta(n, dim) {
                     Ok(_) if d2 >= max => (1.0, 0.0),
                     Ok(b) => b.tails_with_complement(d2 / max, (max - d2) / max),
