@@ -81,6 +81,14 @@ pub enum Estimator {
         /// retained rows (consistency, and for the reweighted estimate the
         /// small-sample correction too).
         scale_factor: f64,
+        /// For the reweighted estimate, the simulated Wishart degrees of
+        /// freedom `m` of its F reference
+        /// ([`Reference::ReweightedMcdF`]); `None` for the raw estimate,
+        /// for fits without the small-sample simulation, and in model files
+        /// written before this field existed (their reweighted distances
+        /// use χ²(p)).
+        #[serde(default)]
+        wishart_dof: Option<f64>,
     },
 }
 
@@ -440,7 +448,8 @@ impl DistanceModel {
     /// # Errors
     /// [`Error::ShapeMismatch`] if the location's length differs from the
     /// scatter's dimension; [`Error::NonFinite`] for a non-finite location;
-    /// [`Error::InvalidParameter`] if `sample_size` is 0.
+    /// [`Error::InvalidParameter`] if `sample_size` is 0 or an MCD
+    /// estimator's `wishart_dof` is not valid for [`Reference::reweighted_mcd`].
     pub fn from_parts(
         location: Vec<f64>,
         scatter: Scatter,
@@ -457,6 +466,13 @@ impl DistanceModel {
         check_row_finite(&location, 0)?;
         if sample_size == 0 {
             return Err(Error::invalid("sample size", "must be at least 1"));
+        }
+        if let Estimator::Mcd {
+            wishart_dof: Some(m),
+            ..
+        } = estimator
+        {
+            Reference::reweighted_mcd(scatter.dim(), m)?;
         }
         Ok(DistanceModel {
             location,
@@ -633,7 +649,8 @@ impl DistanceModel {
     /// |---|---|---|
     /// | classical, weighted, supplied | F, Beta (exact under normality) | χ²(p) |
     /// | shrinkage (Ledoit–Wolf, OAS, fixed) | F, Beta (approximate; see [`crate::shrinkage`]) | χ²(p) |
-    /// | MCD, reweighted | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
+    /// | MCD, reweighted, simulated `m` | scaled F ([`Reference::ReweightedMcdF`]) | χ²(p) |
+    /// | MCD, reweighted, no `m` (`n > 1000` or no simulation) | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
     /// | MCD, raw | Hardin–Rocke F ([`Reference::RawMcdF`]) | χ²(p) |
     ///
     /// The F and Beta laws are stated for the unbiased (`n − 1`) covariance;
@@ -646,7 +663,8 @@ impl DistanceModel {
     /// # Errors
     /// [`Error::TooFewRows`] if the model's sample is too small for that
     /// reference (`n > p` for new rows, `n > p + 1` for in-sample rows);
-    /// for a raw MCD model, the errors of [`Reference::raw_mcd`];
+    /// for a raw MCD model, the errors of [`Reference::raw_mcd`]; for a
+    /// reweighted one, those of [`Reference::reweighted_mcd`];
     /// [`Error::InvalidParameter`] for new or in-sample rows of a weighted
     /// fit with the divisor `n`.
     pub fn reference(&self, origin: RowOrigin) -> Result<Reference> {
@@ -655,10 +673,14 @@ impl DistanceModel {
             (
                 Estimator::Mcd {
                     stage: McdStage::Reweighted,
+                    wishart_dof,
                     ..
                 },
                 _,
-            ) => Reference::chi_square(self.dim()),
+            ) => match *wishart_dof {
+                Some(m) => Reference::reweighted_mcd(self.dim(), m),
+                None => Reference::chi_square(self.dim()),
+            },
             (
                 Estimator::Mcd {
                     stage: McdStage::Raw,

@@ -996,9 +996,14 @@ fn fit_with_each_estimator_then_score() {
             "mcd",
             vec!["--support", "0.75", "--seed", "11"],
             "\"kind\": \"mcd\"",
-            "chi-square",
+            "simulated Wishart F (reweighted MCD)",
         ),
-        ("mcd", vec![], "\"stage\": \"reweighted\"", "chi-square"),
+        (
+            "mcd",
+            vec![],
+            "\"stage\": \"reweighted\"",
+            "simulated Wishart F (reweighted MCD)",
+        ),
     ] {
         let model = dir.path().join(format!("model_{estimator}.json"));
         mvdist()
@@ -1271,4 +1276,62 @@ fn binary_and_json_model_files_serve_every_reader() {
     assert!(p > 0.0 && p < 1e-30, "{p_text}");
     assert!(p_text.contains('e') && p_text.len() <= 24, "{p_text}");
     assert_eq!(format!("{p:e}"), *p_text);
+}
+
+/// Stack loss (Brownlee 1965, as shipped by statsmodels; fixture from
+/// `tests/reference/make_stackloss_fixture.py`) through the command line, as
+/// a new user would run it: `fit --estimator mcd`, then `score --in-sample`
+/// at α = 0.025 flags rows 1, 2 and 3, the same rows as the library (see
+/// `stack_loss_with_the_default_subset_size` in tests/robust_reference.rs),
+/// and the model file records the simulated Wishart degrees of freedom.
+#[test]
+fn robust_fit_and_in_sample_scores_on_stack_loss() {
+    let dir = TempDir::new().unwrap();
+    let f = common::fixture("stackloss.json");
+    let mut text = String::from("AIRFLOW,WATERTEMP,ACIDCONC\n");
+    for row in f["data"].as_array().unwrap() {
+        let v: Vec<String> = row
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|x| x.as_f64().unwrap().to_string())
+            .collect();
+        text.push_str(&v.join(","));
+        text.push('\n');
+    }
+    let data = write(dir.path(), "stackloss.csv", &text);
+    let model = dir.path().join("model.json");
+    mvdist()
+        .arg("fit")
+        .arg(&data)
+        .arg("--out")
+        .arg(&model)
+        .args(["--estimator", "mcd"])
+        .assert()
+        .success();
+    let saved = std::fs::read_to_string(&model).unwrap();
+    assert!(saved.contains("\"wishart_dof\""), "{saved}");
+    let out = dir.path().join("scores.csv");
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .arg("--out")
+        .arg(&out)
+        .args(["--in-sample", "--alpha", "0.025"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "(simulated Wishart F (reweighted MCD) reference",
+        ))
+        .stdout(predicate::str::contains("3 flagged"));
+    let (header, rows) = read_points(&out);
+    let flag = header.iter().position(|h| h == "flag").unwrap();
+    let flagged: Vec<usize> = rows
+        .iter()
+        .enumerate()
+        .filter(|(_, r)| r[flag] == "true")
+        .map(|(i, _)| i + 1)
+        .collect();
+    assert_eq!(flagged, [1, 2, 3]);
 }

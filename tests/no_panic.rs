@@ -419,6 +419,7 @@ proptest! {
             for r in [Reference::chi_square(p), Reference::new_row(n, p), Reference::in_sample(n, p),
                       Reference::raw_mcd(n, p, (n + p).div_ceil(2)), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
                       Ok(Reference::RawMcdF { n, dim: p, subset_size: v.abs().min(1e6) as usize }),
+                      Reference::reweighted_mcd(p, n as f64 + v.abs()), Ok(Reference::ReweightedMcdF { dim: p, wishart_dof: v }),
                       Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::MaximumLikelihood }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::MaximumLikelihood }),
                       Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::Unbiased }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::Unbiased })].into_iter().flatten() {
                 {

@@ -225,8 +225,11 @@ fn mcd_settings(d: &Value, seed: u64) -> McdSettings {
 
 /// The raw MCD objective (ln det of the h-subset's ML covariance) is never
 /// worse than scikit-learn 1.9.1's `MinCovDet` (best of five seeds, same h)
-/// on four open datasets; where both find the same subset, the raw and
-/// reweighted estimates agree to 1e-10.
+/// on four open datasets; in fact it is strictly lower on all four (ln det
+/// −193.41 vs −193.01 on breast cancer, −7.96 vs −7.49 on wine, −70.6586 vs
+/// −70.6578 on diabetes, −9.86 vs −9.55 on iris). Where both find the same
+/// subset the estimates agree to 1e-10: see
+/// `stack_loss_matches_scikit_learn_at_its_subset_size`.
 #[test]
 fn mcd_objective_is_no_worse_than_scikit_learn() {
     let all = datasets();
@@ -246,34 +249,14 @@ fn mcd_objective_is_no_worse_than_scikit_learn() {
                 ours <= reference + 1e-9 * reference.abs(),
                 "{name} seed {seed}: ours {ours} vs scikit-learn {reference}"
             );
-            let sk_subset: Vec<usize> = m["raw_support"]
-                .as_array()
-                .unwrap()
-                .iter()
-                .map(|v| v.as_u64().unwrap() as usize)
-                .collect();
-            if fit.subset() == sk_subset.as_slice() {
-                let c = fit.consistency_factor();
-                let raw_ml = fit.raw_scatter().matrix().mapv(|v| v / c);
-                assert!(
-                    matrix_rel(&raw_ml, &matrix(&m["raw_covariance_ml"])) < 1e-10,
-                    "{name}"
-                );
-                assert!(
-                    matrix_rel(
-                        &fit.scatter().matrix().to_owned(),
-                        &matrix(&m["covariance"])
-                    ) < 1e-10,
-                    "{name}"
-                );
-                let rw: Vec<usize> = m["reweighted_support"]
-                    .as_array()
-                    .unwrap()
-                    .iter()
-                    .map(|v| v.as_u64().unwrap() as usize)
-                    .collect();
-                assert_eq!(fit.reweighted_rows(), rw.as_slice(), "{name}");
-            }
+            // Measured: on all four datasets and seeds our subset is
+            // strictly better, so the subsets differ and the estimates
+            // cannot be compared entry by entry here; the stack loss
+            // tests below compare them where the subsets coincide.
+            assert!(
+                ours < reference,
+                "{name} seed {seed}: {ours} vs {reference}"
+            );
         }
     }
 }
@@ -425,5 +408,159 @@ fn exact_fit_on_open_data() {
             }
             other => panic!("seed {seed}: expected an exact fit, got {other:?}"),
         }
+    }
+}
+
+fn one_based(v: &Value) -> Vec<usize> {
+    v.as_array()
+        .unwrap()
+        .iter()
+        .map(|r| r.as_u64().unwrap() as usize - 1)
+        .collect()
+}
+
+/// Stack loss (Brownlee 1965, 21 rows of air flow, water temperature and
+/// acid concentration, as shipped by statsmodels; fixture from
+/// `tests/reference/make_stackloss_fixture.py`). At scikit-learn's default
+/// subset size h = 13 and without the small-sample correction (which
+/// scikit-learn does not have), our fit keeps the same 16 rows as
+/// scikit-learn 1.9.1's `MinCovDet` (all five of its seeds agree), its
+/// reweighted location and covariance agree to 1e-10, its raw objective is
+/// no worse, and the rows beyond χ²(3) at 0.975 are the same five:
+/// 1, 2, 3, 17 and 21 (1-based).
+#[test]
+fn stack_loss_matches_scikit_learn_at_its_subset_size() {
+    let d = common::fixture("stackloss.json");
+    let x = matrix(&d["data"]);
+    let sk = &d["sklearn"];
+    let h = sk["subset_size"].as_u64().unwrap() as usize;
+    assert_eq!(h, 13);
+    let runs = sk["runs"].as_array().unwrap();
+    let best_raw = runs
+        .iter()
+        .map(|r| r["raw_log_determinant"].as_f64().unwrap())
+        .fold(f64::INFINITY, f64::min);
+    for seed in [0u64, 1, 2] {
+        let settings = McdSettings::default()
+            .with_support_fraction(h as f64 / 21.0)
+            .unwrap()
+            .with_seed(seed)
+            .with_small_sample_replications(0);
+        let fit = minimum_covariance_determinant(x.view(), &settings).unwrap();
+        assert_eq!(fit.subset_size(), 13);
+        assert!(
+            fit.raw_log_determinant() <= best_raw + 1e-9 * best_raw.abs(),
+            "seed {seed}: {} vs {best_raw}",
+            fit.raw_log_determinant()
+        );
+        for run in runs {
+            assert_eq!(fit.reweighted_rows(), one_based(&run["reweighted_rows"]));
+            let want = vector(&run["location"]);
+            for (a, b) in fit.location().iter().zip(&want) {
+                assert!(rel(*a, *b) < 1e-10, "{a} vs {b}");
+            }
+            assert!(
+                matrix_rel(
+                    &fit.scatter().matrix().to_owned(),
+                    &matrix(&run["covariance"])
+                ) < 1e-10
+            );
+        }
+        let model = fit.model().unwrap();
+        assert_eq!(fit.reweighted_wishart_dof(), None);
+        let cutoff = model.cutoff(0.025, RowOrigin::InSample).unwrap();
+        let chi = Reference::chi_square(3).unwrap().cutoff(0.025).unwrap();
+        assert_eq!(cutoff, chi);
+        let d2 = model.squared_distances(x.view()).unwrap();
+        let flagged: Vec<usize> = (0..21).filter(|&i| d2[i] > cutoff).collect();
+        for run in runs {
+            assert_eq!(flagged, one_based(&run["flagged_rows"]), "seed {seed}");
+        }
+    }
+}
+
+/// Stack loss with our defaults: h = ⌊(n + p + 1)/2⌋ = 12 and the simulated
+/// small-sample factors and reweighted F reference. The 12-row subset
+/// leaves out the rows at air flow 50 as well as the four rows with the
+/// highest air flow, and χ²(3) flags nine rows (1, 2, 3, 15–19, 21). The
+/// reweighted F reference (m ≈ 6.2 simulated for n = 21, p = 3) flags rows
+/// 1, 2 and 3 at 2.5% and row 21 at 5%: the four rows that robust analyses
+/// of these data single out (recalled from the robust-statistics
+/// literature, not checked against a source here).
+#[test]
+fn stack_loss_with_the_default_subset_size() {
+    let d = common::fixture("stackloss.json");
+    let x = matrix(&d["data"]);
+    let fit = minimum_covariance_determinant(x.view(), &McdSettings::default()).unwrap();
+    assert_eq!(fit.subset_size(), 12);
+    let m = fit.reweighted_wishart_dof().expect("simulated at n = 21");
+    let model = fit.model().unwrap();
+    let reference = model.reference(RowOrigin::InSample).unwrap();
+    assert_eq!(reference, Reference::reweighted_mcd(3, m).unwrap());
+    let d2 = model.squared_distances(x.view()).unwrap();
+    let cutoff = reference.cutoff(0.025).unwrap();
+    let chi = Reference::chi_square(3).unwrap().cutoff(0.025).unwrap();
+    assert!(cutoff > chi);
+    let flagged: Vec<usize> = (0..21).filter(|&i| d2[i] > cutoff).collect();
+    let flagged_chi: Vec<usize> = (0..21).filter(|&i| d2[i] > chi).collect();
+    assert_eq!(flagged, [0, 1, 2], "m = {m}, cutoff = {cutoff}");
+    // Row 21 is the borderline one: flagged at 5%, not at 2.5%
+    // (measured p ≈ 0.036).
+    let p21 = reference.p_value(d2[20]);
+    assert!((0.025..0.05).contains(&p21), "row 21: p = {p21}");
+    assert_eq!(flagged_chi, [0, 1, 2, 14, 15, 16, 17, 18, 20]);
+}
+
+/// The simulated `m` travels with the model: a JSON round trip keeps the
+/// reference; a file written before the field existed loads with χ²(p);
+/// an invalid `m` is refused when the model is read, not when it scores.
+#[test]
+fn reweighted_reference_survives_serialization() {
+    let d = common::fixture("stackloss.json");
+    let x = matrix(&d["data"]);
+    let fit = minimum_covariance_determinant(x.view(), &McdSettings::default()).unwrap();
+    let model = fit.model().unwrap();
+    let json = serde_json::to_value(&model).unwrap();
+    let back: DistanceModel = serde_json::from_value(json.clone()).unwrap();
+    assert_eq!(
+        back.reference(RowOrigin::New).unwrap(),
+        model.reference(RowOrigin::New).unwrap()
+    );
+    let text = json.to_string();
+    assert!(text.contains("\"wishart_dof\""), "{text}");
+    let mut old = json.clone();
+    remove_key(&mut old, "wishart_dof");
+    let old: DistanceModel = serde_json::from_value(old).unwrap();
+    assert_eq!(
+        old.reference(RowOrigin::New).unwrap(),
+        Reference::chi_square(3).unwrap()
+    );
+    let mut bad = json;
+    set_key(&mut bad, "wishart_dof", serde_json::json!(3.5));
+    let err = serde_json::from_value::<DistanceModel>(bad).unwrap_err();
+    assert!(err.to_string().contains("wishart_dof"), "{err}");
+}
+
+fn remove_key(v: &mut Value, key: &str) {
+    match v {
+        Value::Object(map) => {
+            map.remove(key);
+            map.values_mut().for_each(|c| remove_key(c, key));
+        }
+        Value::Array(items) => items.iter_mut().for_each(|c| remove_key(c, key)),
+        _ => {}
+    }
+}
+
+fn set_key(v: &mut Value, key: &str, to: Value) {
+    match v {
+        Value::Object(map) => {
+            if let Some(slot) = map.get_mut(key) {
+                *slot = to.clone();
+            }
+            map.values_mut().for_each(|c| set_key(c, key, to.clone()));
+        }
+        Value::Array(items) => items.iter_mut().for_each(|c| set_key(c, key, to.clone())),
+        _ => {}
     }
 }

@@ -100,4 +100,26 @@ mod tests {
         assert!(m1 > 4.0 && m2 > 5.0 * m1, "{m1} {m2}");
         assert!(hardin_rocke_dof(10, 3, 3).is_err());
     }
+
+    #[test]
+    fn matches_the_formula_evaluated_in_scipy() {
+        // Arithmetic check: the same formula transcribed to Python and
+        // evaluated with scipy 1.17.1's chi2 (so it shares our reading of
+        // Hardin and Rocke 2005). The independent check is the ignored simulation
+        // `hardin_rocke_degrees_of_freedom_match_simulation`
+        // (tests/robust_calibration.rs), which compares m with 2/Var of the
+        // simulated scatter's diagonal.
+        for &(n, p, h, want) in &[
+            (200usize, 5usize, 103usize, 38.006793397276695f64),
+            (2000, 5, 1003, 298.5894005783414),
+            (21, 3, 12, 4.367354241496781),
+            (178, 13, 96, 59.67922275429679),
+        ] {
+            let got = hardin_rocke_dof(n, p, h).unwrap();
+            assert!(
+                (got / want - 1.0).abs() < 1e-10,
+                "{n} {p} {h}: {got} vs {want}"
+            );
+        }
+    }
 }

@@ -130,6 +130,17 @@ pub enum Reference {
         /// The MCD subset size `h`.
         subset_size: usize,
     },
+    /// `(m−p+1)·d²/(p m) ~ F(p, m−p+1)`: `d²` is measured with a
+    /// reweighted minimum covariance determinant estimate whose scatter is
+    /// approximated by a scaled Wishart with `m` degrees of freedom, `m`
+    /// simulated at the fit's `n`, `p` and subset size; see
+    /// [`Reference::reweighted_mcd`].
+    ReweightedMcdF {
+        /// Number of variables `p`.
+        dim: usize,
+        /// The Wishart degrees of freedom `m`.
+        wishart_dof: f64,
+    },
 }
 
 impl Reference {
@@ -268,9 +279,52 @@ impl Reference {
         })
     }
 
-    /// The Wishart degrees of freedom `m` of a [`Reference::RawMcdF`]
-    /// reference; `None` for the other kinds (or an invalid hand-built
-    /// value).
+    /// The F reference for distances from a reweighted minimum covariance
+    /// determinant estimate of `dim` variables whose scatter behaves like a
+    /// scaled Wishart with `wishart_dof` degrees of freedom `m`:
+    /// `d² ≈ p m/(m − p + 1) · F(p, m − p + 1)`.
+    ///
+    /// [`crate::robust::minimum_covariance_determinant`] simulates `m` for
+    /// the fit's own `n`, `p` and subset size (matched to the upper 2.5%
+    /// point of simulated new-row distances; see
+    /// [`crate::robust::McdFit::reweighted_wishart_dof`]), and
+    /// [`crate::DistanceModel::reference`] uses this reference for both new
+    /// and in-sample rows of the reweighted model. χ²(p) is its limit as
+    /// `m → ∞`; at small `n` χ²(p) flags clean rows several times more often
+    /// than nominal.
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] if `dim` is 0 or `wishart_dof` is not a
+    /// finite number above `dim + 1` (the approximation's mean is finite
+    /// only there).
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::calibration::Reference;
+    /// let r = Reference::reweighted_mcd(3, 20.0)?;
+    /// // The scale of F(3, 18) is 3·20/18.
+    /// let f = mvdist::calibration::FDistribution::new(3.0, 18.0)?;
+    /// assert!((r.p_value(7.0) - f.sf(7.0 * 18.0 / 60.0)).abs() < 1e-15);
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn reweighted_mcd(dim: usize, wishart_dof: f64) -> Result<Self> {
+        Self::chi_square(dim)?;
+        if !(wishart_dof.is_finite() && wishart_dof > dim as f64 + 1.0) {
+            return Err(Error::invalid(
+                "wishart_dof",
+                format!(
+                    "{wishart_dof} is not a finite number above p + 1 = {}; \
+                     use the χ² reference when no simulated value is available",
+                    dim + 1
+                ),
+            ));
+        }
+        Ok(Reference::ReweightedMcdF { dim, wishart_dof })
+    }
+
+    /// The Wishart degrees of freedom `m` of a [`Reference::RawMcdF`] or
+    /// [`Reference::ReweightedMcdF`] reference; `None` for the other kinds
+    /// (or an invalid hand-built value).
     pub fn degrees_of_freedom(&self) -> Option<f64> {
         match *self {
             Reference::RawMcdF {
@@ -278,6 +332,10 @@ impl Reference {
                 dim,
                 subset_size,
             } => hardin_rocke::hardin_rocke_dof(n, dim, subset_size).ok(),
+            Reference::ReweightedMcdF { dim, wishart_dof } => {
+                Self::reweighted_mcd(dim, wishart_dof).ok()?;
+                Some(wishart_dof)
+            }
             _ => None,
         }
     }
@@ -302,7 +360,8 @@ impl Reference {
             Reference::ChiSquare { dim }
             | Reference::InSampleBeta { dim, .. }
             | Reference::NewRowF { dim, .. }
-            | Reference::RawMcdF { dim, .. } => dim,
+            | Reference::RawMcdF { dim, .. }
+            | Reference::ReweightedMcdF { dim, .. } => dim,
         }
     }
 
@@ -342,6 +401,12 @@ impl Reference {
                 Ok((f, scale)) => f.tails(d2 / scale),
                 Err(_) => (f64::NAN, f64::NAN),
             },
+            Reference::ReweightedMcdF { dim, wishart_dof } => {
+                match reweighted_mcd_fisher(dim, wishart_dof) {
+                    Ok((f, scale)) => f.tails(d2 / scale),
+                    Err(_) => (f64::NAN, f64::NAN),
+                }
+            }
         }
     }
 
@@ -404,6 +469,10 @@ impl Reference {
                 let (f, scale) = raw_mcd_fisher(n, dim, subset_size)?;
                 Ok(f.isf(alpha)? * scale)
             }
+            Reference::ReweightedMcdF { dim, wishart_dof } => {
+                let (f, scale) = reweighted_mcd_fisher(dim, wishart_dof)?;
+                Ok(f.isf(alpha)? * scale)
+            }
         }
     }
 }
@@ -428,7 +497,17 @@ fn fisher(n: usize, dim: usize) -> Result<FDistribution> {
 /// The F distribution of the Hardin–Rocke approximation and the scale
 /// `p m / (m − p + 1)` with `d² = scale · F`.
 fn raw_mcd_fisher(n: usize, dim: usize, subset_size: usize) -> Result<(FDistribution, f64)> {
-    let m = hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?;
+    wishart_fisher(dim, hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?)
+}
+
+fn reweighted_mcd_fisher(dim: usize, wishart_dof: f64) -> Result<(FDistribution, f64)> {
+    Reference::reweighted_mcd(dim, wishart_dof)?;
+    wishart_fisher(dim, wishart_dof)
+}
+
+/// `F(p, m − p + 1)` and the scale `p m/(m − p + 1)` of the scaled-Wishart
+/// approximation with `m` degrees of freedom.
+fn wishart_fisher(dim: usize, m: f64) -> Result<(FDistribution, f64)> {
     let p = dim as f64;
     let d2 = m - p + 1.0;
     Ok((FDistribution::new(p, d2)?, p * m / d2))

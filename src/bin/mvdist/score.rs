@@ -109,6 +109,7 @@ fn describe(reference: &Reference) -> &'static str {
         Reference::InSampleBeta { .. } => "in-sample Beta",
         Reference::NewRowF { .. } => "new-row F",
         Reference::RawMcdF { .. } => "Hardin-Rocke F (raw MCD)",
+        Reference::ReweightedMcdF { .. } => "simulated Wishart F (reweighted MCD)",
     }
 }
 
