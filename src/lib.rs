@@ -69,6 +69,15 @@
 //!   thread.
 //! * Linear algebra runs in pure Rust on faer; hot loops select AVX2/FMA
 //!   code at run time, so a plain `cargo build --release` is fast.
+//! * [`ndarray`] is re-exported, so `mvdist::ndarray` is always the version
+//!   the API takes.
+//!
+//! ## Companion crates
+//!
+//! The library has no command-line or SQL dependencies. The `mvdist`
+//! command is the `mvdist-cli` crate (`cargo install --path
+//! crates/mvdist-cli`); SQL functions for Apache DataFusion are the
+//! `mvdist-datafusion` crate.
 
 #![deny(missing_docs)]
 // Index loops mirror the formulas in numeric kernels; `!(x > 0.0)` is used
@@ -95,9 +104,9 @@ pub mod normality;
 pub mod robust;
 pub mod scatter;
 pub mod shrinkage;
-#[cfg(feature = "datafusion")]
-pub mod sql_functions;
 pub mod whitening;
+
+pub use ndarray;
 
 pub use calibration::{Adjustment, Reference, RowOrigin};
 pub use error::{Error, Result};

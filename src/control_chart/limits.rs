@@ -452,7 +452,7 @@ impl ControlLimit {
             ControlLimit::IndividualsPhaseOne { observations, .. }
             | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
                 let phase_one = matches!(self, ControlLimit::IndividualsPhaseOne { .. });
-                let needed = if phase_one { p + 2 } else { p + 1 };
+                let needed = p.saturating_add(if phase_one { 2 } else { 1 });
                 if observations < needed {
                     return Err(Error::TooFewRows {
                         rows: observations,

@@ -224,7 +224,7 @@ impl MomentAccumulator {
 
     pub(crate) fn push_unchecked(&mut self, row: &[f64], weight: f64) {
         let p = self.dim;
-        self.count += 1;
+        self.count = self.count.saturating_add(1);
         for ((lo, hi), &v) in self.min.iter_mut().zip(self.max.iter_mut()).zip(row) {
             *lo = lo.min(v);
             *hi = hi.max(v);
@@ -292,7 +292,9 @@ impl MomentAccumulator {
     /// Merges the rows summarized by `other` into `self`.
     ///
     /// # Errors
-    /// [`Error::ShapeMismatch`] if the dimensions differ.
+    /// [`Error::ShapeMismatch`] if the dimensions differ;
+    /// [`Error::InvalidParameter`] if the merged row count does not fit in
+    /// 64 bits (only possible with hand-edited serialized accumulators).
     pub fn merge(&mut self, other: &MomentAccumulator) -> Result<()> {
         if other.dim != self.dim {
             return Err(Error::ShapeMismatch {
@@ -301,13 +303,24 @@ impl MomentAccumulator {
                 found: other.dim,
             });
         }
+        if self.count.checked_add(other.count).is_none() {
+            return Err(Error::invalid(
+                "accumulator count",
+                format!(
+                    "{} + {} rows does not fit in 64 bits; check where these accumulators came from",
+                    self.count, other.count
+                ),
+            ));
+        }
         self.merge_unchecked(other);
         Ok(())
     }
 
     pub(crate) fn merge_unchecked(&mut self, other: &MomentAccumulator) {
         let p = self.dim;
-        self.count += other.count;
+        // Row counts from this process cannot overflow (each row was read);
+        // `merge` checks counts from elsewhere first.
+        self.count = self.count.saturating_add(other.count);
         for j in 0..p {
             self.min[j] = self.min[j].min(other.min[j]);
             self.max[j] = self.max[j].max(other.max[j]);

@@ -5,9 +5,14 @@
 use ndarray::Array2;
 use serde_json::Value;
 
-/// Loads `tests/fixtures/<name>`.
+/// Loads `tests/fixtures/<name>` of the library crate (also from the
+/// workspace's other crates, two folders below it).
 pub fn fixture(name: &str) -> Value {
-    let path = format!("{}/tests/fixtures/{name}", env!("CARGO_MANIFEST_DIR"));
+    let here = env!("CARGO_MANIFEST_DIR");
+    let mut path = format!("{here}/tests/fixtures/{name}");
+    if !std::path::Path::new(&path).exists() {
+        path = format!("{here}/../../tests/fixtures/{name}");
+    }
     let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{path}: {e}"));
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("{path}: {e}"))
 }

@@ -2,8 +2,8 @@
 //! (fixtures from `tests/reference/make_robust_fixtures.py`), and
 //! hand-checkable cases of the papers' formulas.
 
-mod common;
-use common::{matrix, matrix_rel, rel, vector};
+use crate::common;
+use crate::common::{matrix, matrix_rel, rel, vector};
 use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdSettings};
 use mvdist::shrinkage::{ledoit_wolf, oas, shrink, OasFormula, ShrinkageTarget};
 use mvdist::{DistanceModel, Estimator, Reference, RowOrigin};

@@ -1,4 +1,4 @@
-//! SQL functions for Apache DataFusion (feature `datafusion`).
+//! SQL functions for Apache DataFusion over [`mvdist`] models.
 //!
 //! Register them on a session with [`register`], then fit and score in SQL:
 //!
@@ -16,7 +16,7 @@
 //! * `mvdist_fit(x1, …, xp)` is an aggregate over `p` numeric columns. Its
 //!   state is a [`MomentAccumulator`] (serialized as JSON), so partial fits
 //!   computed on partitions or executors merge without approximation; its value is a model
-//!   file in the JSON form of [`crate::model_file`] (variables named after
+//!   file in the JSON form of [`mvdist::model_file`] (variables named after
 //!   the argument columns), which [`ModelFile::from_json`] reads.
 //! * `mvdist_d2(model, x1, …, xp)`: the squared distance (`DOUBLE`).
 //! * `mvdist_p_value(model, x1, …, xp)`: the p-value for new rows (F
@@ -31,10 +31,9 @@
 //! input and non-numeric arguments are errors with a message naming the
 //! argument.
 
-use crate::calibration::RowOrigin;
-use crate::model_file::ModelFile;
-use crate::moments::{Divisor, MomentAccumulator};
-use crate::DistanceModel;
+#![deny(missing_docs)]
+#![warn(clippy::unwrap_used, clippy::expect_used, clippy::panic)]
+
 use datafusion::arrow::array::{Array, ArrayRef, BooleanArray, Float64Array, StringArray};
 use datafusion::arrow::compute::cast;
 use datafusion::arrow::datatypes::{DataType, Field, FieldRef};
@@ -46,6 +45,10 @@ use datafusion::logical_expr::{
     ScalarUDFImpl, Signature, Volatility,
 };
 use datafusion::prelude::SessionContext;
+use mvdist::calibration::RowOrigin;
+use mvdist::model_file::ModelFile;
+use mvdist::moments::{Divisor, MomentAccumulator};
+use mvdist::DistanceModel;
 use std::collections::HashMap;
 use std::sync::Arc;
 
@@ -87,7 +90,7 @@ fn numeric_arguments(function: &str, types: &[DataType], skip: usize) -> Result<
 /// # async fn main() -> datafusion::common::Result<()> {
 /// use datafusion::prelude::SessionContext;
 /// let ctx = SessionContext::new();
-/// mvdist::sql_functions::register(&ctx);
+/// mvdist_datafusion::register(&ctx);
 /// let df = ctx
 ///     .sql("SELECT mvdist_fit(a, b) AS model FROM (VALUES (1.0, 2.0), (2.0, 2.9), (3.0, 4.2), (4.0, 4.8)) AS t(a, b)")
 ///     .await?;
@@ -125,7 +128,7 @@ const SCORE_KINDS: [ScoreKind; 3] = [
 /// ```
 /// use datafusion::execution::{FunctionRegistry, SessionStateBuilder};
 /// let mut state = SessionStateBuilder::new().with_default_features().build();
-/// mvdist::sql_functions::register_with(&mut state)?;
+/// mvdist_datafusion::register_with(&mut state)?;
 /// assert!(state.udaf("mvdist_fit").is_ok());
 /// assert!(state.udf("mvdist_p_value").is_ok());
 /// # Ok::<(), datafusion::common::DataFusionError>(())
@@ -241,7 +244,7 @@ fn rows_of(function: &str, columns: &[ArrayRef], buffer: &mut Vec<f64>) -> Resul
 impl Accumulator for FitAccumulator {
     fn update_batch(&mut self, values: &[ArrayRef]) -> Result<()> {
         let n = rows_of("mvdist_fit", values, &mut self.buffer)?;
-        let rows = ndarray::ArrayView2::from_shape((n, self.names.len()), &self.buffer)
+        let rows = mvdist::ndarray::ArrayView2::from_shape((n, self.names.len()), &self.buffer)
             .map_err(|e| error("mvdist_fit", e))?;
         self.state
             .push_rows(rows)
@@ -278,8 +281,8 @@ impl Accumulator for FitAccumulator {
         let model =
             DistanceModel::from_accumulator(&self.state, Divisor::Unbiased).map_err(|e| {
                 let e = match e {
-                    crate::Error::ZeroVariance { column }
-                    | crate::Error::Collinear { column, .. } => format!(
+                    mvdist::Error::ZeroVariance { column }
+                    | mvdist::Error::Collinear { column, .. } => format!(
                         "{e} (column {column} is '{}')",
                         self.names.get(column).map_or("?", |s| s.as_str())
                     ),
@@ -377,7 +380,7 @@ impl ModelArgument {
 /// A parsed model with its new-row reference.
 struct LoadedModel {
     model: DistanceModel,
-    reference: crate::calibration::Reference,
+    reference: mvdist::calibration::Reference,
 }
 
 impl LoadedModel {

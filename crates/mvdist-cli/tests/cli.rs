@@ -1,7 +1,7 @@
 //! Command-line tool: every success path and every error case, asserting the
 //! exit code, the message, and that no output file is left after an error.
-#![cfg(feature = "cli")]
 
+#[path = "../../../tests/common/mod.rs"]
 mod common;
 use assert_cmd::Command;
 use mvdist::{DistanceModel, RowOrigin};
@@ -390,38 +390,6 @@ fn score_errors_name_the_problem() {
     score(&model, &data, &["--label", "nope"], "unknown column 'nope'");
     // Usage errors come from the argument parser with exit code 2.
     mvdist().args(["score"]).assert().code(2);
-}
-
-#[test]
-fn demo_runs_and_writes_its_charts() {
-    let dir = TempDir::new().unwrap();
-    let out = dir.path().join("charts");
-    // `cargo test` builds the examples next to the test binaries' folder.
-    let exe = std::env::current_exe().unwrap();
-    let demo = exe
-        .parent()
-        .unwrap()
-        .parent()
-        .unwrap()
-        .join("examples")
-        .join("demo");
-    let status = std::process::Command::new(&demo)
-        .arg(&out)
-        .output()
-        .unwrap();
-    let stdout = String::from_utf8_lossy(&status.stdout);
-    assert!(
-        status.status.success(),
-        "{stdout}\n{}",
-        String::from_utf8_lossy(&status.stderr)
-    );
-    assert!(stdout.contains("flagged"), "{stdout}");
-    assert!(stdout.contains("Caution"), "{stdout}");
-    assert!(stdout.contains("T² control chart"), "{stdout}");
-    for chart in ["new_batches.svg", "reference_qq.svg", "t2_chart.svg"] {
-        let svg = std::fs::read_to_string(out.join(chart)).unwrap();
-        assert!(svg.starts_with("<svg") && svg.contains("</svg>"), "{chart}");
-    }
 }
 
 /// One iris species (rows `50k..50k+50` of the scikit-learn data) as CSV.

@@ -1,8 +1,7 @@
 //! Simulation checks of the MCD calibration (long: `#[ignore]`, run with
 //! `cargo test --release -- --ignored`). Data from our own seeded generator.
 
-mod common;
-use common::Rng;
+use crate::common::Rng;
 use mvdist::calibration::Reference;
 use mvdist::robust::{minimum_covariance_determinant, McdSettings};
 use mvdist::RowOrigin;

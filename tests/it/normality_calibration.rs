@@ -10,8 +10,7 @@
 //! 3 degrees of freedom and a multivariate lognormal at (200, 3), 1000
 //! replications each; every test must reject in more than 90%.
 
-mod common;
-use common::Rng;
+use crate::common::Rng;
 use mvdist::normality::{DoornikHansen, HenzeZirkler, Mardia, RoystonH};
 use ndarray::Array2;
 use rayon::prelude::*;

@@ -1,7 +1,7 @@
 //! Model files: exact round trips in both forms, and typed errors (never a
 //! panic) for random, mutated, truncated and future-version bytes.
 
-mod common;
+use crate::common;
 use mvdist::model_file::ModelFile;
 use mvdist::DistanceModel;
 use proptest::prelude::*;

@@ -4,7 +4,7 @@
 //! scikit-learn; tests/fixtures/breast_cancer_distances.json), replayed in
 //! a loop.
 
-mod common;
+use crate::common;
 use mvdist::drift::{ForgettingModel, SlidingWindowModel};
 use mvdist::moments::{Divisor, MomentAccumulator};
 use mvdist::{DistanceModel, Scatter};

@@ -2,8 +2,8 @@
 //! SQL scoring equals the library's, bad columns give the engine's error
 //! with our message. Data: the first eight columns of the Wisconsin
 //! breast-cancer data (open dataset bundled with scikit-learn).
-#![cfg(feature = "datafusion")]
 
+#[path = "../../../tests/common/mod.rs"]
 mod common;
 use datafusion::arrow::array::{ArrayRef, Float64Array, StringArray};
 use datafusion::arrow::datatypes::{DataType, Field, Schema};
@@ -60,7 +60,7 @@ fn context(x: &Array2<f64>, partitions: usize, extra_text: bool) -> SessionConte
         SessionContext::new_with_config(SessionConfig::new().with_target_partitions(partitions));
     ctx.register_table("t", Arc::new(MemTable::try_new(schema, parts).unwrap()))
         .unwrap();
-    mvdist::sql_functions::register(&ctx);
+    mvdist_datafusion::register(&ctx);
     ctx
 }
 
@@ -128,7 +128,7 @@ async fn functions_registered_on_a_state_fit_the_same() {
         .with_config(SessionConfig::new().with_target_partitions(4))
         .with_default_features()
         .build();
-    mvdist::sql_functions::register_with(&mut state).unwrap();
+    mvdist_datafusion::register_with(&mut state).unwrap();
     let ctx = SessionContext::new_with_state(state);
     let plain = context(&x, 4, false);
     let table = plain.table_provider("t").await.unwrap();

@@ -4,8 +4,8 @@
 //! scikit-learn 1.9.1: iris, wine and breast-cancer data bundled with
 //! scikit-learn; T² by `np.linalg.solve`, tails by `scipy.stats`).
 
-mod common;
-use common::{fixture, matrix, rel, vector, Rng};
+use crate::common;
+use crate::common::{fixture, matrix, rel, vector, Rng};
 use mvdist::mean_tests::{
     one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter,
     ClassificationRule, MeanComparison, MeanTestKind,

@@ -3,8 +3,7 @@
 //! Phase I removal and screening, subgroups, typed errors, and (ignored,
 //! release mode) false-alarm calibration by simulation.
 
-mod common;
-use common::{fixture, rel, Rng};
+use crate::common::{fixture, rel, Rng};
 use mvdist::control_chart::decomposition::{conditional_terms, term_count, terms_along};
 use mvdist::control_chart::{
     chart_svg, ChartDesign, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,

@@ -75,14 +75,14 @@ async fn cluster_with_table(functions_in_cluster: bool, dir: &Path) -> SessionCo
         .with_default_features()
         .build();
     if functions_in_cluster {
-        mvdist::sql_functions::register_with(&mut state).expect("register");
+        mvdist_datafusion::register_with(&mut state).expect("register");
     }
     let ctx = SessionContext::standalone_with_state(state)
         .await
         .expect("standalone Ballista");
     // The client context that plans the query is built afresh by Ballista;
     // it needs the functions too.
-    mvdist::sql_functions::register(&ctx);
+    mvdist_datafusion::register(&ctx);
     ctx.register_csv(
         "t",
         dir.to_str().expect("utf-8 path"),

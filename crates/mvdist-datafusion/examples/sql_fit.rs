@@ -1,6 +1,6 @@
-//! Fit and score with SQL on Apache DataFusion (feature `datafusion`).
+//! Fit and score with SQL on Apache DataFusion .
 //!
-//! `cargo run --release --features datafusion --example sql_fit -- [DIR]`
+//! `cargo run --release -p mvdist-datafusion --example sql_fit -- [DIR]`
 //!
 //! Reads every CSV file in `DIR/reference/` and `DIR/new/` (each with the
 //! same numeric columns), fits a model over the reference rows with
@@ -63,7 +63,7 @@ async fn main() -> Result<(), Box<dyn Error>> {
         }
     };
     let ctx = SessionContext::new();
-    mvdist::sql_functions::register(&ctx);
+    mvdist_datafusion::register(&ctx);
     let path = |p: &str| dir.join(p).to_string_lossy().into_owned() + "/";
     ctx.register_csv("reference", &path("reference"), CsvReadOptions::new())
         .await?;

@@ -6,8 +6,8 @@
 //! 1.17.1, scikit-learn 1.9.1) from the iris and wine datasets bundled with
 //! scikit-learn.
 
-mod common;
-use common::{fixture, matrix, rel};
+use crate::common;
+use crate::common::{fixture, matrix, rel};
 use mvdist::classification::{
     Classifier, ClassifierOptions, LeaveOneOut, PredictOptions, Priors, Rule,
 };

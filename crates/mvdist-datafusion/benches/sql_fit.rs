@@ -1,7 +1,7 @@
 //! Fitting through DataFusion's SQL aggregate against the library's own
-//! in-memory parallel fit, on the same rows (feature `datafusion`).
+//! in-memory parallel fit, on the same rows .
 //!
-//! `cargo bench --features datafusion --bench sql_fit -- --noplot`
+//! `cargo bench -p mvdist-datafusion --bench sql_fit -- --noplot`
 //!
 //! Both sides read data already in memory: the library fit reads one
 //! row-major `ndarray` of 10,000,000 × 16 values; the SQL side reads the same
@@ -11,6 +11,7 @@
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion};
 
+#[path = "../../../benches/support/mod.rs"]
 mod support;
 use datafusion::arrow::array::{ArrayRef, Float64Array, StringArray};
 use datafusion::arrow::datatypes::{DataType, Field, Schema};
@@ -86,7 +87,7 @@ fn bench_sql_fit(c: &mut Criterion) {
     let x = correlated_rows(ROWS, COLUMNS, 11);
     let partitions = std::thread::available_parallelism().map_or(2, |n| n.get());
     let ctx = SessionContext::new();
-    mvdist::sql_functions::register(&ctx);
+    mvdist_datafusion::register(&ctx);
     ctx.register_table("t", Arc::new(mem_table(&x, partitions)))
         .expect("register");
     let sql = format!(

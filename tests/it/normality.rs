@@ -6,8 +6,7 @@
 //! (`load_iris`, `load_wine`, `load_diabetes`, `load_breast_cancer`,
 //! `load_digits`); each case's `source` says how it was derived.
 
-mod common;
-use common::{fixture, matrix, rel, vector, Rng};
+use crate::common::{fixture, matrix, rel, vector, Rng};
 use mvdist::normality::{
     ChiSquareQq, DoornikHansen, HenzeZirkler, Mardia, NormalityOptions, NormalityReport,
     NormalityTest, RoystonH, ShapiroWilk, ShapiroWilkCoefficients, TestOutcome, VariableShape,

@@ -6,8 +6,7 @@
 //! Data come from the open datasets bundled with scikit-learn (Wisconsin
 //! breast cancer, 569 × 30; Fisher's iris, 150 × 4).
 
-mod common;
-use common::{fixture, matrix, matrix_rel, rel, vector};
+use crate::common::{fixture, matrix, matrix_rel, rel, vector};
 use mvdist::calibration::{BetaDistribution, ChiSquared, FDistribution, Reference};
 use mvdist::moments::{mean_and_covariance, weighted_mean_and_covariance, Divisor, GroupMoments};
 use mvdist::{distance, DistanceModel, Scatter};

@@ -1,8 +1,7 @@
 //! Properties of distance-to-centroid classification on random groups
 //! (invented data from a fixed-seed generator, for these checks only).
 
-mod common;
-use common::{rel, Rng};
+use crate::common::{rel, Rng};
 use mvdist::classification::{Classifier, ClassifierOptions, LeaveOneOut, Priors, Rule};
 use mvdist::Divisor;
 use ndarray::{Array2, Axis};
