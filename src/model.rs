@@ -2,95 +2,18 @@
 
 use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
 use crate::data::{check_columns, check_row, check_row_finite, rows_from_slice};
-use crate::distance::kernel;
 use crate::error::{Error, Result};
+use crate::estimate::{Estimate, Estimator, McdStage, OasFormula, ShrinkageTarget};
 use crate::explain::{contributions, ContributionOrder, Contributions};
+use crate::kernels::distance as kernel;
 use crate::moments::{Divisor, MomentAccumulator};
-use crate::robust::{McdSettings, McdStage};
+use crate::robust::{McdFit, McdSettings};
 use crate::scatter::Scatter;
-use crate::shrinkage::{OasFormula, ShrinkageTarget};
+use crate::shrinkage::ShrinkageFit;
 use crate::whitening::{Whitener, WhiteningKind};
 use ndarray::{Array1, ArrayView2};
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
-
-/// How a model's location and scatter were estimated.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(tag = "kind", rename_all = "snake_case")]
-#[non_exhaustive]
-pub enum Estimator {
-    /// Sample mean and covariance.
-    Classical {
-        /// The covariance denominator.
-        divisor: Divisor,
-    },
-    /// Weighted mean and covariance.
-    Weighted {
-        /// The covariance denominator.
-        divisor: Divisor,
-    },
-    /// Location and scatter supplied by the caller.
-    Supplied,
-    /// Exponentially weighted mean and covariance
-    /// ([`ForgettingModel`](crate::drift::ForgettingModel)).
-    ExponentiallyWeighted {
-        /// The forgetting factor `λ`.
-        forgetting: f64,
-    },
-    /// Mean and covariance of a sliding window of rows
-    /// ([`SlidingWindowModel`](crate::drift::SlidingWindowModel)).
-    SlidingWindow {
-        /// The window size.
-        capacity: usize,
-    },
-    /// Sample mean and Ledoit–Wolf shrinkage toward a scaled identity
-    /// ([`crate::shrinkage::ledoit_wolf`]).
-    LedoitWolf {
-        /// The estimated intensity used, in `[0, 1]`.
-        intensity: f64,
-    },
-    /// Sample mean and oracle approximating shrinkage toward a scaled
-    /// identity ([`crate::shrinkage::oas`]).
-    Oas {
-        /// The estimated intensity used, in `[0, 1]`.
-        intensity: f64,
-        /// Which formula gave it.
-        formula: OasFormula,
-    },
-    /// Sample mean and shrinkage with an intensity chosen by the caller
-    /// ([`crate::shrinkage::shrink`]).
-    Shrunk {
-        /// The intensity, in `[0, 1]`.
-        intensity: f64,
-        /// The target.
-        target: ShrinkageTarget,
-    },
-    /// Minimum covariance determinant by FastMCD
-    /// ([`crate::robust::minimum_covariance_determinant`]).
-    Mcd {
-        /// Raw (the `h`-subset) or one-step reweighted estimate.
-        stage: McdStage,
-        /// The subset size `h`.
-        subset_size: usize,
-        /// The support fraction the caller asked for, if any (otherwise
-        /// `h = ⌊(n + p + 1)/2⌋`).
-        support_fraction: Option<f64>,
-        /// The seed of the random subset draws.
-        seed: u64,
-        /// The factor applied to the maximum-likelihood covariance of the
-        /// retained rows (consistency, and for the reweighted estimate the
-        /// small-sample correction too).
-        scale_factor: f64,
-        /// For the reweighted estimate, the simulated Wishart degrees of
-        /// freedom `m` of its F reference
-        /// ([`Reference::ReweightedMcdF`]); `None` for the raw estimate,
-        /// for fits without the small-sample simulation, and in model files
-        /// written before this field existed (their reweighted distances
-        /// use χ²(p)).
-        #[serde(default)]
-        wishart_dof: Option<f64>,
-    },
-}
 
 /// A fitted model for squared generalized distances: a location `μ`, a
 /// validated [`Scatter`] `Σ`, and the number `n` of rows it was fitted on.
@@ -482,6 +405,15 @@ impl DistanceModel {
         })
     }
 
+    /// A model from an estimator's [`Estimate`].
+    ///
+    /// # Errors
+    /// As [`from_parts`](Self::from_parts).
+    pub fn from_estimate(estimate: Estimate) -> Result<Self> {
+        let (location, scatter, sample_size, estimator) = estimate.into_parts();
+        Self::from_parts(location, scatter, sample_size, estimator)
+    }
+
     /// Number of variables `p`.
     pub fn dim(&self) -> usize {
         self.location.len()
@@ -520,7 +452,7 @@ impl DistanceModel {
     pub fn squared_distance(&self, x: &[f64]) -> Result<f64> {
         self.check_point(x)?;
         finite(kernel::squared_distance_row(
-            &self.scatter,
+            self.scatter.whitening_factor(),
             &self.location,
             x,
             None,
@@ -535,7 +467,7 @@ impl DistanceModel {
     pub fn squared_distance_with_scratch(&self, x: &[f64], scratch: &mut [f64]) -> Result<f64> {
         self.check_point(x)?;
         finite(kernel::squared_distance_row(
-            &self.scatter,
+            self.scatter.whitening_factor(),
             &self.location,
             x,
             Some(scratch),
@@ -639,7 +571,7 @@ impl DistanceModel {
                 found: out.len(),
             });
         }
-        kernel::batch_squared_distances(&self.scatter, &self.location, rows, out)
+        kernel::batch_squared_distances(self.scatter.whitening_factor(), &self.location, rows, out)
     }
 
     /// The reference distribution for rows of the given origin, chosen by
@@ -802,5 +734,39 @@ fn finite(d2: f64) -> Result<f64> {
         Ok(d2)
     } else {
         Err(Error::Overflow { row: 0 })
+    }
+}
+
+// The estimators' convenience constructors of models live here, in the
+// model layer, so that the estimators import nothing from it.
+
+impl McdFit {
+    /// The reweighted estimate as a [`DistanceModel`] (F reference with the
+    /// simulated [`reweighted_wishart_dof`](McdFit::reweighted_wishart_dof),
+    /// or χ² when there is none).
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected).
+    pub fn model(&self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.estimate())
+    }
+
+    /// The raw estimate as a [`DistanceModel`] (Hardin–Rocke F reference).
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected).
+    pub fn raw_model(&self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.raw_estimate())
+    }
+}
+
+impl ShrinkageFit {
+    /// A [`DistanceModel`] holding this estimate.
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected for a fit made by
+    /// [`crate::shrinkage`]).
+    pub fn into_model(self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.estimate())
     }
 }

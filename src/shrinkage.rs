@@ -90,35 +90,12 @@
 //! [`RowOrigin::KnownParameters`]: crate::RowOrigin::KnownParameters
 
 use crate::error::{Error, Result};
+use crate::estimate::{Estimate, Estimator};
+pub use crate::estimate::{OasFormula, ShrinkageTarget};
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
-use serde::{Deserialize, Serialize};
-
-/// The matrix a shrinkage estimate is pulled toward.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum ShrinkageTarget {
-    /// `μ I` with `μ = tr(S)/p`, the average variance: shrinks every
-    /// eigenvalue toward their mean and every correlation toward zero.
-    ScaledIdentity,
-    /// `diag(S)`: keeps the variances and shrinks the covariances toward
-    /// zero.
-    Diagonal,
-}
-
-/// Which formula of the OAS intensity to use; see the
-/// [module documentation](self).
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Default, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum OasFormula {
-    /// Chen et al. (2010), Eq. 23, with the `2/p` terms.
-    #[default]
-    Published,
-    /// Eq. 23 without the `2/p` terms, as in scikit-learn 1.9.1.
-    WithoutTwoOverP,
-}
 
 /// A shrinkage estimate: sample mean, shrunk scatter, and the intensity
 /// and target used.
@@ -142,7 +119,7 @@ pub struct ShrinkageFit {
     intensity: f64,
     target: ShrinkageTarget,
     sample_size: usize,
-    estimator: crate::Estimator,
+    estimator: Estimator,
 }
 
 impl ShrinkageFit {
@@ -172,22 +149,18 @@ impl ShrinkageFit {
     }
 
     /// How the estimate was made (as recorded in a model).
-    pub fn estimator(&self) -> &crate::Estimator {
+    pub fn estimator(&self) -> &Estimator {
         &self.estimator
     }
 
-    /// A [`crate::DistanceModel`] holding this estimate.
-    ///
-    /// # Errors
-    /// As [`crate::DistanceModel::from_parts`] (not expected for a fit made
-    /// by this module).
-    pub fn into_model(self) -> Result<crate::DistanceModel> {
-        crate::DistanceModel::from_parts(
-            self.location,
-            self.scatter,
-            self.sample_size,
-            self.estimator,
-        )
+    /// The estimate, for [`crate::DistanceModel::from_estimate`].
+    pub fn estimate(&self) -> Estimate {
+        Estimate {
+            location: self.location.clone(),
+            scatter: self.scatter.clone(),
+            sample_size: self.sample_size,
+            estimator: self.estimator.clone(),
+        }
     }
 }
 
@@ -267,7 +240,7 @@ impl SampleMoments {
         self,
         intensity: f64,
         target: ShrinkageTarget,
-        estimator: crate::Estimator,
+        estimator: Estimator,
     ) -> Result<ShrinkageFit> {
         let scatter = self.shrunk(intensity, target)?;
         Ok(ShrinkageFit {
@@ -298,7 +271,7 @@ fn sum_of_squared_norms_squared(rows: ArrayView2<'_, f64>, mean: &[f64]) -> f64 
     };
     let n = rows.nrows();
     let per = 4096;
-    if n * mean.len() < crate::distance::kernel::SEQUENTIAL_BELOW {
+    if n * mean.len() < crate::kernels::distance::SEQUENTIAL_BELOW {
         chunk(0, n)
     } else {
         (0..n.div_ceil(per))
@@ -348,7 +321,7 @@ pub fn ledoit_wolf(rows: ArrayView2<'_, f64>) -> Result<ShrinkageFit> {
     m.fit(
         intensity,
         ShrinkageTarget::ScaledIdentity,
-        crate::Estimator::LedoitWolf { intensity },
+        Estimator::LedoitWolf { intensity },
     )
 }
 
@@ -391,7 +364,7 @@ pub fn oas(rows: ArrayView2<'_, f64>, formula: OasFormula) -> Result<ShrinkageFi
     m.fit(
         intensity,
         ShrinkageTarget::ScaledIdentity,
-        crate::Estimator::Oas { intensity, formula },
+        Estimator::Oas { intensity, formula },
     )
 }
 
@@ -427,9 +400,5 @@ pub fn shrink(
         ));
     }
     let m = SampleMoments::new(rows)?;
-    m.fit(
-        intensity,
-        target,
-        crate::Estimator::Shrunk { intensity, target },
-    )
+    m.fit(intensity, target, Estimator::Shrunk { intensity, target })
 }

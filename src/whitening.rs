@@ -36,7 +36,7 @@
 
 use crate::data::{check_columns, check_finite, check_row_finite, square_view};
 use crate::error::{Error, Result};
-use crate::linalg;
+use crate::kernels::linalg;
 use crate::scatter::Scatter;
 use ndarray::{Array2, ArrayView2};
 use rayon::prelude::*;

@@ -43,12 +43,11 @@
 //! ```
 
 mod adjust;
-mod distributions;
 pub(crate) mod hardin_rocke;
-pub(crate) mod special;
 
+pub(crate) use crate::distributions::check_probability;
+pub use crate::distributions::{BetaDistribution, ChiSquared, FDistribution};
 pub use adjust::{adjusted_p_values, Adjustment};
-pub use distributions::{BetaDistribution, ChiSquared, FDistribution};
 
 use crate::error::{Error, Result};
 use crate::moments::Divisor;
@@ -517,17 +516,6 @@ fn wishart_fisher(dim: usize, m: f64) -> Result<(FDistribution, f64)> {
 fn f_scale(n: usize, dim: usize) -> f64 {
     let (nf, p) = (n as f64, dim as f64);
     p * (nf + 1.0) * (nf - 1.0) / (nf * (nf - p))
-}
-
-pub(crate) fn check_probability(alpha: f64) -> Result<()> {
-    if alpha > 0.0 && alpha < 1.0 {
-        Ok(())
-    } else {
-        Err(Error::invalid(
-            "alpha",
-            format!("{alpha} is not a probability strictly between 0 and 1"),
-        ))
-    }
 }
 
 #[cfg(test)]

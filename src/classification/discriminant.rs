@@ -4,7 +4,7 @@
 use super::fit::Classifier;
 use crate::data::check_columns;
 use crate::error::{Error, Result};
-use crate::linalg;
+use crate::kernels::linalg;
 use ndarray::{Array2, ArrayView2};
 
 /// Directions `v` maximizing the ratio of between-group to within-group

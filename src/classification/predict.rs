@@ -5,8 +5,8 @@ use super::fit::{Classifier, Rule};
 use super::kernel::{predict_block, RuleView, Scratch};
 use crate::calibration::check_probability;
 use crate::data::check_columns;
-use crate::distance::kernel::{non_finite_cause, SEQUENTIAL_BELOW};
 use crate::error::{Error, Result};
+use crate::kernels::distance::{non_finite_cause, SEQUENTIAL_BELOW};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
 

@@ -32,7 +32,7 @@
 //! # Ok::<(), mvdist::Error>(())
 //! ```
 
-pub(crate) mod kernel;
+use crate::kernels::distance as kernel;
 
 use crate::data::{check_columns, check_finite, check_row_finite};
 use crate::error::{Error, Result};
@@ -63,7 +63,7 @@ pub fn squared_distance(scatter: &Scatter, x: &[f64], y: &[f64]) -> Result<f64> 
     }
     check_row_finite(x, 0)?;
     check_row_finite(y, 1)?;
-    let d2 = kernel::squared_distance_row(scatter, y, x, None);
+    let d2 = kernel::squared_distance_row(scatter.whitening_factor(), y, x, None);
     if d2.is_finite() {
         Ok(d2)
     } else {
@@ -92,7 +92,7 @@ pub fn squared_distances_to(
     check_columns(rows, p)?;
     check_row_finite(location, 0)?;
     let mut out = vec![0.0; rows.nrows()];
-    kernel::batch_squared_distances(scatter, location, rows, &mut out)?;
+    kernel::batch_squared_distances(scatter.whitening_factor(), location, rows, &mut out)?;
     Ok(Array1::from(out))
 }
 

@@ -6,7 +6,8 @@ use super::DEFAULT_REFACTOR_EVERY;
 use crate::calibration::{Reference, RowOrigin};
 use crate::data::check_row;
 use crate::error::{Error, Result};
-use crate::model::{DistanceModel, Estimator, RowScore};
+use crate::estimate::Estimator;
+use crate::model::{DistanceModel, RowScore};
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
 

@@ -4,7 +4,7 @@
 use super::comparison::{ComparisonParts, MeanComparison, MeanTestKind};
 use super::{same_columns, sample_moments};
 use crate::error::{Error, Result};
-use crate::linalg;
+use crate::kernels::linalg;
 use crate::moments::Divisor;
 use crate::scatter::Scatter;
 use ndarray::ArrayView2;

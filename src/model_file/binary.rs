@@ -17,7 +17,8 @@
 use super::crc32::crc32;
 use super::{ModelFile, FORMAT_VERSION};
 use crate::error::{Error, Result};
-use crate::model::{DistanceModel, Estimator};
+use crate::estimate::Estimator;
+use crate::model::DistanceModel;
 use crate::scatter::Scatter;
 
 pub(crate) const MAGIC: &[u8; 4] = b"MVDM";

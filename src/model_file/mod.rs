@@ -56,7 +56,8 @@ mod binary;
 mod crc32;
 
 use crate::error::{Error, Result};
-use crate::model::{DistanceModel, Estimator};
+use crate::estimate::Estimator;
+use crate::model::DistanceModel;
 use crate::scatter::Scatter;
 use serde::{Deserialize, Serialize};
 use std::path::Path;

@@ -2,16 +2,15 @@
 //! merged pairwise.
 
 use super::accumulator::MomentAccumulator;
-use super::gram;
 use crate::error::Result;
-use crate::linalg;
+use crate::kernels::linalg;
 use ndarray::{s, ArrayView2};
 use rayon::prelude::*;
 
 /// Rows per block, chosen so a centred block stays in the L2 cache.
 fn block_rows(p: usize) -> usize {
-    if p <= gram::LANE_KERNEL_MAX_DIM {
-        gram::padded((32_768 / p.max(1)).clamp(256, 4096))
+    if p <= crate::kernels::gram::LANE_KERNEL_MAX_DIM {
+        crate::kernels::gram::padded((32_768 / p.max(1)).clamp(256, 4096))
     } else {
         (131_072 / p).clamp(256, 4096)
     }
@@ -90,8 +89,12 @@ fn block_moments_body(
     let mut sums = vec![0.0; p];
     let mut wsum = 0.0;
     let mut wsq = 0.0;
-    let lane_kernel = p <= gram::LANE_KERNEL_MAX_DIM;
-    let len = if lane_kernel { gram::padded(n) } else { n };
+    let lane_kernel = p <= crate::kernels::gram::LANE_KERNEL_MAX_DIM;
+    let len = if lane_kernel {
+        crate::kernels::gram::padded(n)
+    } else {
+        n
+    };
     if buf.len() < p * len {
         buf.resize(p * len, 0.0);
     }
@@ -213,7 +216,7 @@ fn block_moments_body(
         return Some(acc);
     }
     if lane_kernel {
-        gram::gram_lower_transposed(buf, p, len, &mut acc.comoment);
+        crate::kernels::gram::gram_lower_transposed(buf, p, len, &mut acc.comoment);
     } else {
         linalg::gram_lower_add(&mut acc.comoment, &buf[..n * p], n, p);
     }
@@ -286,7 +289,7 @@ pub(crate) fn accumulate(
         }
         acc
     };
-    let result = if n * p < crate::distance::kernel::SEQUENTIAL_BELOW || blocks < 2 {
+    let result = if n * p < crate::kernels::distance::SEQUENTIAL_BELOW || blocks < 2 {
         run_range(0..blocks)
     } else {
         let pieces = (4 * rayon::current_num_threads()).min(blocks);

@@ -19,7 +19,6 @@
 mod accumulator;
 mod batch;
 mod exponential;
-mod gram;
 mod pooled;
 
 pub use accumulator::MomentAccumulator;

@@ -36,7 +36,7 @@
 use super::blocks::{fit_ml, power_sums, RowMap};
 use crate::calibration::ChiSquared;
 use crate::error::{Error, Result};
-use crate::linalg;
+use crate::kernels::linalg;
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 

@@ -35,7 +35,7 @@ use super::blocks::{fit_ml, fold_mapped, RowMap, BLOCK};
 use super::normal;
 use crate::calibration::ChiSquared;
 use crate::error::{Error, Result};
-use crate::lanes::{fmadd, lane_sum};
+use crate::kernels::lanes::{fmadd, lane_sum};
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 

@@ -8,7 +8,7 @@
 //! in the last place, also in the far tails; checked against scipy's
 //! `ndtri` in the tests).
 
-use crate::calibration::special::gamma_tails;
+use crate::distributions::special::gamma_tails;
 use std::f64::consts::SQRT_2;
 
 /// Upper tail `P(Z > z)` of the standard normal distribution.

@@ -10,17 +10,10 @@
 //! exponential (below) in loops the compiler vectorizes. Tasks run on the caller's rayon pool;
 //! memory is the `O(n·p)` transposed copy.
 //!
-//! The exponential for non-positive arguments splits `x = k·ln 2 + r` with
-//! `|r| ≤ ln 2 / 2` (Cody–Waite reduction with a two-part `ln 2`), evaluates
-//! the degree-13 Taylor polynomial of `eʳ` (truncation error below 5e-18),
-//! and scales by `2ᵏ` built directly in the exponent bits; arguments below
-//! −708 return 0 (the true value is below 3.3e-308). Its relative error is
-//! a few units in the last place (checked against `f64::exp` in the unit
-//! tests). Method: common practice in vector math libraries (J.-M. Muller,
-//! *Elementary Functions: Algorithms and Implementation*, 3rd ed., 2016,
-//! ch. 11).
+//! The exponential is the shared branch-free one of `kernels/exp.rs`.
 
-use crate::lanes::{fmadd, lane_sum};
+use crate::kernels::exp::exp_nonpositive;
+use crate::kernels::lanes::{fmadd, lane_sum};
 use rayon::prelude::*;
 
 /// Lanes per vector step.
@@ -29,17 +22,6 @@ const LANES: usize = 8;
 const TASK_ROWS: usize = 64;
 /// Rows `j` per cache tile.
 const TILE: usize = 512;
-
-const LOG2_E: f64 = std::f64::consts::LOG2_E;
-/// `1.5 · 2⁵²`: adding it rounds to an integer held in the low mantissa bits.
-const SHIFTER: f64 = 6_755_399_441_055_744.0;
-/// `ln 2` split so that `k · LN2_HI` is exact for `|k| < 2¹¹` (the high
-/// part has 32 trailing zero bits): `LN2_HI = 0.6931471803691238…`,
-/// `LN2_LO = ln 2 − LN2_HI = 1.9082149292705877…e-10`.
-const LN2_HI: f64 = f64::from_bits(0x3FE6_2E42_FEE0_0000);
-const LN2_LO: f64 = f64::from_bits(0x3DEA_39EF_3579_3C76);
-/// Below this argument the result is reported as 0.
-const EXP_LOWEST: f64 = -708.0;
 
 /// Whitened rows, transposed and padded, ready for pairwise sums.
 pub(crate) struct TransposedRows {
@@ -65,40 +47,6 @@ impl TransposedRows {
             stride,
             dim,
         }
-    }
-}
-
-/// `eˣ` for `x ≤ 0` (see the module documentation); NaN is not expected.
-#[inline(always)]
-pub(crate) fn exp_nonpositive<const FMA: bool>(x: f64) -> f64 {
-    let xc = if x < EXP_LOWEST { EXP_LOWEST } else { x };
-    let t = fmadd::<FMA>(xc, LOG2_E, SHIFTER);
-    let k = t - SHIFTER;
-    let r = fmadd::<FMA>(k, -LN2_HI, xc);
-    let r = fmadd::<FMA>(k, -LN2_LO, r);
-    // Taylor coefficients 1/j!, j = 13 … 0.
-    let mut q = 1.0 / 6_227_020_800.0;
-    q = fmadd::<FMA>(q, r, 1.0 / 479_001_600.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 39_916_800.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 3_628_800.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 362_880.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 40_320.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 5_040.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 720.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 120.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 24.0);
-    q = fmadd::<FMA>(q, r, 1.0 / 6.0);
-    q = fmadd::<FMA>(q, r, 0.5);
-    q = fmadd::<FMA>(q, r, 1.0);
-    q = fmadd::<FMA>(q, r, 1.0);
-    // t's low mantissa bits hold k (two's complement, offset by 2⁵¹, whose
-    // low 12 bits are zero); shifting k + 1023 into the exponent field
-    // builds 2ᵏ for −1022 ≤ k ≤ 0.
-    let scale = f64::from_bits(t.to_bits().wrapping_add(1023) << 52);
-    if x < EXP_LOWEST {
-        0.0
-    } else {
-        q * scale
     }
 }
 
@@ -211,29 +159,6 @@ pub(crate) fn gaussian_pair_sum(z: &TransposedRows, h: f64) -> f64 {
 #[cfg(test)]
 mod tests {
     use super::*;
-
-    #[test]
-    fn exponential_matches_the_standard_library() {
-        let mut worst: f64 = 0.0;
-        let mut x: f64 = 0.0;
-        while x > -708.0 {
-            for y in [x, x - 1e-3, x - 0.346_573_590_279_972_6]
-                .into_iter()
-                .filter(|&y| y >= -708.0)
-            {
-                let want = y.exp();
-                for got in [exp_nonpositive::<false>(y), exp_nonpositive::<true>(y)] {
-                    worst = worst.max((got - want).abs() / want);
-                }
-            }
-            x -= 0.0137;
-        }
-        assert!(worst < 6e-16, "worst relative error {worst:e}");
-        assert_eq!(exp_nonpositive::<false>(0.0), 1.0);
-        assert_eq!(exp_nonpositive::<false>(-709.0), 0.0);
-        assert_eq!(exp_nonpositive::<false>(f64::NEG_INFINITY), 0.0);
-        assert_eq!(exp_nonpositive::<false>(-1e300), 0.0);
-    }
 
     #[test]
     fn pair_sum_matches_the_double_loop() {

@@ -20,7 +20,7 @@
 //! - G. Pison, S. Van Aelst and G. Willems (2002). Small sample corrections
 //!   for LTS and MCD. *Metrika* 55, 111–123.
 
-use crate::calibration::ChiSquared;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 
 /// The consistency factor `c(α) = α / P(χ²_{p+2} ≤ χ²_{p;α})` for `dim`

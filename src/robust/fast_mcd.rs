@@ -37,10 +37,11 @@
 //! `O(n)` per parallel task (distances and an index buffer), never `O(n²)`.
 
 use super::exchange;
-use super::hyperplane::{self, Hyperplane};
+use super::hyperplane;
 use super::random::SplitMix64;
-use crate::distance::kernel;
+use crate::error::Hyperplane;
 use crate::error::{Error, Result};
+use crate::kernels::distance as kernel;
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
 use ndarray::{Array2, ArrayView2};
@@ -197,7 +198,7 @@ fn concentrate(
     s.d2.resize(n, 0.0);
     let mut best: Option<Candidate> = None;
     for _ in 0..steps.max(1) {
-        kernel::batch_squared_distances(&scatter, &mean, x, &mut s.d2)?;
+        kernel::batch_squared_distances(scatter.whitening_factor(), &mean, x, &mut s.d2)?;
         let idx = smallest(&s.d2, h, &mut s.order);
         if let Some(b) = &best {
             if b.subset == idx {
@@ -549,7 +550,7 @@ fn polish(
 ) -> Result<std::result::Result<Candidate, Hyperplane>> {
     s.d2.resize(x.nrows(), 0.0);
     for _ in 0..MAX_EXCHANGES {
-        kernel::batch_squared_distances(&best.scatter, &best.mean, x, &mut s.d2)?;
+        kernel::batch_squared_distances(best.scatter.whitening_factor(), &best.mean, x, &mut s.d2)?;
         let Some(e) = exchange::best_exchange(x, &best.subset, &best.mean, &best.scatter, &s.d2)
         else {
             break;

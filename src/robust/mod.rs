@@ -113,33 +113,22 @@ mod hyperplane;
 pub(crate) mod random;
 mod small_sample;
 
+pub use crate::error::Hyperplane;
 pub use consistency::consistency_factor;
-pub use hyperplane::Hyperplane;
 pub use small_sample::SMALL_SAMPLE_MAX_ROWS;
 
-use crate::calibration::ChiSquared;
 use crate::data::check_finite;
-use crate::distance::kernel;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
-use crate::model::{DistanceModel, Estimator};
+pub use crate::estimate::McdStage;
+use crate::estimate::{Estimate, Estimator};
+use crate::kernels::distance as kernel;
 use crate::scatter::Scatter;
 use fast_mcd::{search, subset_moments, Search, SearchPlan};
 use ndarray::{Array2, ArrayView2};
-use serde::{Deserialize, Serialize};
 
 /// Coverage of the reweighting cutoff: rows with `d² ≤ χ²_{p;0.975}` are kept.
 pub const REWEIGHT_COVERAGE: f64 = 0.975;
-
-/// Which MCD estimate a model holds.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum McdStage {
-    /// The `h`-subset estimate with its consistency factor (reference:
-    /// Hardin–Rocke F).
-    Raw,
-    /// The one-step reweighted estimate (reference: χ²).
-    Reweighted,
-}
 
 /// Settings of a FastMCD fit.
 ///
@@ -403,35 +392,29 @@ impl McdFit {
         }
     }
 
-    /// The reweighted estimate as a [`DistanceModel`] (F reference with the
-    /// simulated [`reweighted_wishart_dof`](Self::reweighted_wishart_dof),
-    /// or χ² when there is none).
-    ///
-    /// # Errors
-    /// As [`DistanceModel::from_parts`] (not expected).
-    pub fn model(&self) -> Result<DistanceModel> {
-        DistanceModel::from_parts(
-            self.location.clone(),
-            self.scatter.clone(),
-            self.sample_size,
-            self.estimator(
+    /// The reweighted estimate: location, scatter, `n`, and an
+    /// [`Estimator::Mcd`] record with the simulated
+    /// [`reweighted_wishart_dof`](Self::reweighted_wishart_dof).
+    pub fn estimate(&self) -> Estimate {
+        Estimate {
+            location: self.location.clone(),
+            scatter: self.scatter.clone(),
+            sample_size: self.sample_size,
+            estimator: self.estimator(
                 McdStage::Reweighted,
                 self.reweighted_factor * self.reweighted_small_sample_factor,
             ),
-        )
+        }
     }
 
-    /// The raw estimate as a [`DistanceModel`] (Hardin–Rocke F reference).
-    ///
-    /// # Errors
-    /// As [`DistanceModel::from_parts`] (not expected).
-    pub fn raw_model(&self) -> Result<DistanceModel> {
-        DistanceModel::from_parts(
-            self.raw_location.clone(),
-            self.raw_scatter.clone(),
-            self.sample_size,
-            self.estimator(McdStage::Raw, self.consistency_factor),
-        )
+    /// The raw estimate (the `h`-subset's, with its consistency factor).
+    pub fn raw_estimate(&self) -> Estimate {
+        Estimate {
+            location: self.raw_location.clone(),
+            scatter: self.raw_scatter.clone(),
+            sample_size: self.sample_size,
+            estimator: self.estimator(McdStage::Raw, self.consistency_factor),
+        }
     }
 }
 
@@ -454,7 +437,7 @@ pub(crate) fn reweight(
 ) -> Result<Reweighted> {
     let (n, p) = x.dim();
     let mut d2 = vec![0.0; n];
-    kernel::batch_squared_distances(ml_cov, mean, x, &mut d2)?;
+    kernel::batch_squared_distances(ml_cov.whitening_factor(), mean, x, &mut d2)?;
     let cutoff = ChiSquared::new(p as f64)?.isf(1.0 - REWEIGHT_COVERAGE)?;
     let rows: Vec<usize> = (0..n).filter(|&i| d2[i] / factor <= cutoff).collect();
     if rows.len() <= p {

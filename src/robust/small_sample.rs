@@ -52,8 +52,8 @@
 use super::fast_mcd::{search, Search, SearchPlan};
 use super::random::SplitMix64;
 use super::reweight;
-use crate::distance::kernel;
 use crate::error::Result;
+use crate::kernels::distance as kernel;
 use ndarray::Array2;
 use rayon::prelude::*;
 
@@ -103,7 +103,7 @@ pub(crate) fn dof_from_tail_quantile(q: f64, p: usize) -> Option<f64> {
     let pf = p as f64;
     let at = |m: f64| -> Option<f64> {
         let d2 = m - pf + 1.0;
-        let f = crate::calibration::FDistribution::new(pf, d2).ok()?;
+        let f = crate::distributions::FDistribution::new(pf, d2).ok()?;
         Some(f.isf(MATCHED_TAIL).ok()? * pf * m / d2)
     };
     let (mut lo, mut hi) = (pf + 1.0 + 1e-9, 1e8);
@@ -182,7 +182,12 @@ pub(crate) fn simulated_factors(
             let w = reweight(x.view(), &mean, &cov, raw_consistency * raw_factor)?;
             let fresh = normal_sample(NEW_ROWS_PER_FIT, p, seed ^ 0xF2E5_0000, r);
             let mut d2 = vec![0.0; NEW_ROWS_PER_FIT];
-            kernel::batch_squared_distances(&w.scatter, &w.mean, fresh.view(), &mut d2)?;
+            kernel::batch_squared_distances(
+                w.scatter.whitening_factor(),
+                &w.mean,
+                fresh.view(),
+                &mut d2,
+            )?;
             Ok(Some((root(w.scatter.log_determinant()), d2)))
         })
         .collect::<Result<Vec<_>>>()?;
@@ -220,7 +225,7 @@ pub(crate) fn simulated_factors(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::calibration::FDistribution;
+    use crate::distributions::FDistribution;
 
     #[test]
     fn wishart_dof_inverts_the_tail_quantile() {

@@ -31,7 +31,7 @@ pub(crate) mod refine;
 mod validate;
 
 use crate::error::{Error, Result};
-use crate::linalg;
+use crate::kernels::linalg;
 use ndarray::{Array2, ArrayView2};
 use serde::{Deserialize, Serialize};
 
@@ -176,7 +176,7 @@ impl Scatter {
         if inverse_factor.iter().any(|v| !v.is_finite()) || !log_det.is_finite() {
             return Err(Error::NotPositiveDefinite { column: dim - 1 });
         }
-        let inverse_factor_t = if dim <= crate::distance::kernel::STACK_DIM {
+        let inverse_factor_t = if dim <= crate::kernels::distance::STACK_DIM {
             let mut t = vec![0.0; dim * dim];
             for i in 0..dim {
                 for j in 0..=i {
@@ -253,12 +253,18 @@ impl Scatter {
         crate::data::square_view(&self.inverse_factor, self.dim)
     }
 
-    pub(crate) fn inverse_factor_slice(&self) -> &[f64] {
-        &self.inverse_factor
+    /// The whitening factor in the form the distance kernels take.
+    pub(crate) fn whitening_factor(&self) -> crate::kernels::distance::Factor<'_> {
+        crate::kernels::distance::Factor {
+            w: &self.inverse_factor,
+            wt: &self.inverse_factor_t,
+            dim: self.dim,
+            diagonal: self.diagonal,
+        }
     }
 
-    pub(crate) fn inverse_factor_t_slice(&self) -> &[f64] {
-        &self.inverse_factor_t
+    pub(crate) fn inverse_factor_slice(&self) -> &[f64] {
+        &self.inverse_factor
     }
 
     pub(crate) fn factor_slice(&self) -> &[f64] {
@@ -333,7 +339,10 @@ impl Scatter {
     /// (with row 0) for a NaN or infinite entry.
     pub fn squared_norm(&self, c: &[f64]) -> Result<f64> {
         self.check_vector(c)?;
-        finite_or_overflow(crate::distance::kernel::squared_norm_centred(self, c))
+        finite_or_overflow(crate::kernels::distance::squared_norm_centred(
+            self.whitening_factor(),
+            c,
+        ))
     }
 
     /// `cᵀ Σ⁻¹ c` computed with iterative refinement in extended precision:

@@ -13,6 +13,7 @@ mod classification_properties;
 mod control_chart;
 mod demo;
 mod drift;
+mod layers;
 mod mean_tests;
 mod model_files;
 mod no_panic;

@@ -16,11 +16,12 @@ use ndarray::{Array2, ArrayView2};
 use proptest::prelude::*;
 use serde_json::Value;
 
-/// |a − b| within `abs`, or within `relative` of |b|.
+/// |a − b| within `abs`, or within `relative` of the larger magnitude
+/// (approx's `relative_eq`).
 #[track_caller]
 fn close(a: f64, b: f64, abs: f64, relative: f64, what: &str) {
     assert!(
-        (a - b).abs() <= abs || rel(a, b) <= relative,
+        approx::relative_eq!(a, b, epsilon = abs, max_relative = relative),
         "{what}: {a:e} vs {b:e} (difference {:e})",
         (a - b).abs()
     );

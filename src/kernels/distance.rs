@@ -8,15 +8,25 @@
 //! enabled, chosen at run time (no `target-cpu` flag is needed).
 
 use crate::error::{Error, Result};
-use crate::scatter::Scatter;
 use ndarray::ArrayView2;
 use rayon::prelude::*;
 
-use crate::lanes::{fmadd, LANES};
+use crate::kernels::lanes::{fmadd, LANES};
 /// Rows per parallel task.
 const TASK_ROWS: usize = 2048;
 /// Below this many values (`n·p`), batch work stays on the calling thread:
 /// splitting costs more than it saves.
+/// The whitening factor of a scatter as the kernels need it: `W = L⁻¹`
+/// row-major, its transpose (empty when not kept), the dimension, and
+/// whether the scatter is diagonal. `Scatter::factor` builds one.
+#[derive(Clone, Copy, Debug)]
+pub(crate) struct Factor<'a> {
+    pub(crate) w: &'a [f64],
+    pub(crate) wt: &'a [f64],
+    pub(crate) dim: usize,
+    pub(crate) diagonal: bool,
+}
+
 pub(crate) const SEQUENTIAL_BELOW: usize = 1 << 15;
 /// Largest `p` for which single-row scoring uses stack storage.
 pub(crate) const STACK_DIM: usize = 64;
@@ -228,13 +238,13 @@ pub(crate) fn has_avx2_fma() -> bool {
 /// The caller has checked the shapes. Non-finite results are reported as
 /// errors naming the first offending row.
 pub(crate) fn batch_squared_distances(
-    scatter: &Scatter,
+    factor: Factor<'_>,
     mu: &[f64],
     x: ArrayView2<'_, f64>,
     out: &mut [f64],
 ) -> Result<()> {
-    let w = scatter.inverse_factor_slice();
-    let diagonal = scatter.is_diagonal();
+    let w = factor.w;
+    let diagonal = factor.diagonal;
     let n = x.nrows();
     let p = mu.len();
     if n * p < SEQUENTIAL_BELOW {
@@ -382,10 +392,10 @@ fn whitened_norm(w: &[f64], p: usize, c: &[f64]) -> f64 {
 }
 
 /// `cᵀ Σ⁻¹ c` for a centred vector (length already checked).
-pub(crate) fn squared_norm_centred(scatter: &Scatter, c: &[f64]) -> f64 {
-    let p = scatter.dim();
-    let w = scatter.inverse_factor_slice();
-    if scatter.is_diagonal() {
+pub(crate) fn squared_norm_centred(factor: Factor<'_>, c: &[f64]) -> f64 {
+    let p = factor.dim;
+    let w = factor.w;
+    if factor.diagonal {
         return c
             .iter()
             .enumerate()
@@ -395,7 +405,7 @@ pub(crate) fn squared_norm_centred(scatter: &Scatter, c: &[f64]) -> f64 {
             })
             .sum();
     }
-    let wt = scatter.inverse_factor_t_slice();
+    let wt = factor.wt;
     if p <= STACK_DIM && wt.len() == p * p {
         #[cfg(target_arch = "x86_64")]
         {
@@ -413,7 +423,7 @@ pub(crate) fn squared_norm_centred(scatter: &Scatter, c: &[f64]) -> f64 {
 /// heap allocation for `p ≤ 64`; `scratch` is used for larger `p` when
 /// given, and a temporary buffer otherwise.
 pub(crate) fn squared_distance_row(
-    scatter: &Scatter,
+    factor: Factor<'_>,
     mu: &[f64],
     x: &[f64],
     scratch: Option<&mut [f64]>,
@@ -424,7 +434,7 @@ pub(crate) fn squared_distance_row(
         for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(mu) {
             *ci = xi - mi;
         }
-        return squared_norm_centred(scatter, &c[..p]);
+        return squared_norm_centred(factor, &c[..p]);
     }
     let mut owned;
     let c: &mut [f64] = match scratch {
@@ -437,5 +447,5 @@ pub(crate) fn squared_distance_row(
     for ((ci, &xi), &mi) in c.iter_mut().zip(x).zip(mu) {
         *ci = xi - mi;
     }
-    squared_norm_centred(scatter, c)
+    squared_norm_centred(factor, c)
 }

@@ -8,7 +8,7 @@
 //! instruction set, for AVX2+FMA and for AVX-512, chosen at run time. For
 //! more variables faer's triangular matrix product does the work.
 
-use crate::lanes::{fmadd, lane_sum, LANES};
+use crate::kernels::lanes::{fmadd, lane_sum, LANES};
 
 /// `acc[i][j] += Σ_r t[i][r]·t[j][r]` for `j ≤ i`; `t` is `p × len`
 /// row-major with `len` a multiple of 8.

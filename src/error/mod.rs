@@ -7,6 +7,9 @@
 
 use std::fmt;
 
+mod exact_fit;
+pub use exact_fit::Hyperplane;
+
 /// A specialized `Result` for mvdist.
 pub type Result<T> = std::result::Result<T, Error>;
 
@@ -117,7 +120,7 @@ pub enum Error {
     /// coefficients) or to check why the rows are tied.
     ExactFit {
         /// The hyperplane `aᵀx = b` and the rows on it.
-        hyperplane: crate::robust::Hyperplane,
+        hyperplane: Hyperplane,
     },
     /// A quantile or cutoff exists but is not representable as an `f64`
     /// (beyond the largest finite number, or closer to the edge of the

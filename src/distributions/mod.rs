@@ -1,9 +1,11 @@
 //! The three reference distributions, with tails accurate to the last few
 //! digits and upper quantiles found by a safeguarded root search.
 
-use super::special::{beta_tails, gamma_tails, solve_decreasing};
+pub(crate) mod special;
+
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
+use special::{beta_tails, gamma_tails, solve_decreasing};
 
 fn positive(name: &'static str, v: f64) -> Result<()> {
     if v.is_finite() && v > 0.0 {
@@ -17,7 +19,7 @@ fn positive(name: &'static str, v: f64) -> Result<()> {
 }
 
 fn check_alpha(alpha: f64) -> Result<()> {
-    super::check_probability(alpha)
+    check_probability(alpha)
 }
 
 /// The χ² distribution with `dof` degrees of freedom.
@@ -318,5 +320,16 @@ impl TryFrom<FDistributionData> for FDistribution {
     type Error = Error;
     fn try_from(d: FDistributionData) -> Result<Self> {
         FDistribution::new(d.d1, d.d2)
+    }
+}
+
+pub(crate) fn check_probability(alpha: f64) -> Result<()> {
+    if alpha > 0.0 && alpha < 1.0 {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            "alpha",
+            format!("{alpha} is not a probability strictly between 0 and 1"),
+        ))
     }
 }
