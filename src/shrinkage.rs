@@ -41,7 +41,7 @@
 //! The conventions (mean-centred, divisor `n`) are those of the papers and of
 //! scikit-learn's `ledoit_wolf` and `oas`, whose results these functions
 //! reproduce to within 4e-15 relative on five open datasets (see
-//! `tests/robust_reference.rs`). For one
+//! `tests/it/robust_reference.rs`). For one
 //! variable every target equals `S`, so the reported intensity is 0.
 //!
 //! A constant variable is refused ([`Error::ZeroVariance`]): shrinkage would

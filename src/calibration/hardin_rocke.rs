@@ -28,7 +28,7 @@
 //! ```
 //!
 //! These formulas and constants are recalled from the paper, not copied
-//! from a file; the `tests/robust_calibration.rs` simulation checks `m`
+//! from a file; the `tests/it/robust_calibration.rs` simulation checks `m`
 //! against the variance of simulated raw MCD variances (`Var ≈ 2/m` for a
 //! Wishart) and the rejection rate of the cutoff on new normal rows.
 //! With `h = n` the estimate is the classical maximum-likelihood covariance
@@ -107,7 +107,7 @@ mod tests {
         // evaluated with scipy 1.17.1's chi2 (so it shares our reading of
         // Hardin and Rocke 2005). The independent check is the ignored simulation
         // `hardin_rocke_degrees_of_freedom_match_simulation`
-        // (tests/robust_calibration.rs), which compares m with 2/Var of the
+        // (tests/it/robust_calibration.rs), which compares m with 2/Var of the
         // simulated scatter's diagonal.
         for &(n, p, h, want) in &[
             (200usize, 5usize, 103usize, 38.006793397276695f64),

@@ -359,7 +359,7 @@ impl ControlLimit {
     /// in the suite's simulation (m = 30, p = 3, α = 0.01) a term with two
     /// conditioning variables exceeded their cutoff 1.27% of the time; with
     /// the leverage term it is at the nominal rate (see the calibration
-    /// test in `tests/control_chart.rs`).
+    /// test in `tests/it/control_chart.rs`).
     ///
     /// # Errors
     /// As [`distribution`](Self::distribution); [`Error::InvalidParameter`]

@@ -56,7 +56,7 @@
 //! `⌈(n + p + 1)/2⌉`), and on small data sets with few distinct values the
 //! one extra row can change which subset wins: on the stack loss data
 //! (`n = 21, p = 3`) our `h = 12` and scikit-learn's `h = 13` flag
-//! different rows (`tests/robust_reference.rs`). Ask for a support fraction
+//! different rows (`tests/it/robust_reference.rs`). Ask for a support fraction
 //! to match another convention.
 //!
 //! **Exact fit.** If at least `h` rows lie on a hyperplane, the minimum

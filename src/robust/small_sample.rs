@@ -19,7 +19,7 @@
 //! The factors are applied when `n ≤ 1000` (see [`SMALL_SAMPLE_MAX_ROWS`]);
 //! above that the simulation would cost many times the fit itself. What is
 //! left uncorrected there is small: measured with this code at `p = 5`
-//! (`tests/robust_calibration.rs`), the raw and reweighted factors are
+//! (`tests/it/robust_calibration.rs`), the raw and reweighted factors are
 //! 1.44 and 1.64 at `n = 30`, 1.13 and 1.14 at `n = 100`, and 1.012 and
 //! 1.013 at `n = 1000`.
 //!
@@ -42,7 +42,7 @@
 //! quantile matching achieves, measured with 200–300 fits at α = 0.025
 //! (fitting rows / new rows): 1.9% / 2.6% at `n = 21, p = 3`, 2.3% / 3.4%
 //! at `n = 30, p = 6`; the ignored simulation in
-//! `tests/robust_calibration.rs` checks it.
+//! `tests/it/robust_calibration.rs` checks it.
 //!
 //! References: G. Pison, S. Van Aelst and G. Willems (2002). Small sample
 //! corrections for LTS and MCD. *Metrika* 55, 111–123. J. Hardin and

@@ -1250,7 +1250,7 @@ fn binary_and_json_model_files_serve_every_reader() {
 /// `tests/reference/make_stackloss_fixture.py`) through the command line, as
 /// a new user would run it: `fit --estimator mcd`, then `score --in-sample`
 /// at α = 0.025 flags rows 1, 2 and 3, the same rows as the library (see
-/// `stack_loss_with_the_default_subset_size` in tests/robust_reference.rs),
+/// `stack_loss_with_the_default_subset_size` in tests/it/robust_reference.rs),
 /// and the model file records the simulated Wishart degrees of freedom.
 #[test]
 fn robust_fit_and_in_sample_scores_on_stack_loss() {
