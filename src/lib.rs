@@ -117,3 +117,27 @@ pub use model::{DistanceModel, RowScore, Scores};
 pub use moments::{Divisor, MomentAccumulator};
 pub use scatter::Scatter;
 pub use whitening::{Whitener, WhiteningKind};
+
+// Every model and fitted-estimate type can be shared across threads: a
+// compile-time check, so that a field that is not `Send + Sync` (an `Rc`, a
+// `Cell`) fails the build rather than a user's service.
+const _: () = {
+    const fn shared<T: Send + Sync>() {}
+    shared::<DistanceModel>();
+    shared::<Scatter>();
+    shared::<Estimate>();
+    shared::<Reference>();
+    shared::<Scores>();
+    shared::<Whitener>();
+    shared::<MomentAccumulator>();
+    shared::<robust::McdFit>();
+    shared::<shrinkage::ShrinkageFit>();
+    shared::<classification::Classifier<String>>();
+    shared::<classification::Classifier<u32>>();
+    shared::<classification::TypicalityReference>();
+    shared::<drift::ForgettingModel>();
+    shared::<drift::SlidingWindowModel>();
+    shared::<control_chart::ControlChart>();
+    shared::<model_file::ModelFile>();
+    shared::<Error>();
+};
