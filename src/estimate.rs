@@ -95,7 +95,8 @@ pub enum McdStage {
     /// The `h`-subset estimate with its consistency factor (reference:
     /// Hardin–Rocke F).
     Raw,
-    /// The one-step reweighted estimate (reference: χ²).
+    /// The one-step reweighted estimate (reference: the simulated scaled F,
+    /// or χ² without a simulation).
     Reweighted,
 }
 

@@ -767,6 +767,6 @@ impl ShrinkageFit {
     /// As [`DistanceModel::from_parts`] (not expected for a fit made by
     /// [`crate::shrinkage`]).
     pub fn into_model(self) -> Result<DistanceModel> {
-        DistanceModel::from_estimate(self.estimate())
+        DistanceModel::from_estimate(self.into_estimate())
     }
 }

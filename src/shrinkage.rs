@@ -155,11 +155,16 @@ impl ShrinkageFit {
 
     /// The estimate, for [`crate::DistanceModel::from_estimate`].
     pub fn estimate(&self) -> Estimate {
+        self.clone().into_estimate()
+    }
+
+    /// The estimate, by value (no copy of the location and scatter).
+    pub fn into_estimate(self) -> Estimate {
         Estimate {
-            location: self.location.clone(),
-            scatter: self.scatter.clone(),
+            location: self.location,
+            scatter: self.scatter,
             sample_size: self.sample_size,
-            estimator: self.estimator.clone(),
+            estimator: self.estimator,
         }
     }
 }

@@ -46,6 +46,7 @@ mod adjust;
 pub(crate) mod hardin_rocke;
 
 pub(crate) use crate::distributions::check_probability;
+use crate::distributions::scaled_wishart_f;
 pub use crate::distributions::{BetaDistribution, ChiSquared, FDistribution};
 pub use adjust::{adjusted_p_values, Adjustment};
 
@@ -496,20 +497,12 @@ fn fisher(n: usize, dim: usize) -> Result<FDistribution> {
 /// The F distribution of the Hardin–Rocke approximation and the scale
 /// `p m / (m − p + 1)` with `d² = scale · F`.
 fn raw_mcd_fisher(n: usize, dim: usize, subset_size: usize) -> Result<(FDistribution, f64)> {
-    wishart_fisher(dim, hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?)
+    scaled_wishart_f(dim, hardin_rocke::hardin_rocke_dof(n, dim, subset_size)?)
 }
 
 fn reweighted_mcd_fisher(dim: usize, wishart_dof: f64) -> Result<(FDistribution, f64)> {
     Reference::reweighted_mcd(dim, wishart_dof)?;
-    wishart_fisher(dim, wishart_dof)
-}
-
-/// `F(p, m − p + 1)` and the scale `p m/(m − p + 1)` of the scaled-Wishart
-/// approximation with `m` degrees of freedom.
-fn wishart_fisher(dim: usize, m: f64) -> Result<(FDistribution, f64)> {
-    let p = dim as f64;
-    let d2 = m - p + 1.0;
-    Ok((FDistribution::new(p, d2)?, p * m / d2))
+    scaled_wishart_f(dim, wishart_dof)
 }
 
 /// `d² = scale · F` for new rows: `scale = p(n+1)(n−1) / (n(n−p))`.

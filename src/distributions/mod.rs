@@ -282,6 +282,18 @@ fn upper_quantile_positive(alpha: f64, tails: impl Fn(f64) -> (f64, f64)) -> Opt
     Some(x)
 }
 
+/// The scaled-Wishart approximation of squared distances from a scatter
+/// with `m` degrees of freedom: `d² ≈ scale · F(p, m − p + 1)` with
+/// `scale = p m/(m − p + 1)`; returns the F law and the scale.
+///
+/// # Errors
+/// [`Error::InvalidParameter`] unless `m − p + 1` is finite and positive.
+pub(crate) fn scaled_wishart_f(dim: usize, m: f64) -> Result<(FDistribution, f64)> {
+    let p = dim as f64;
+    let d2 = m - p + 1.0;
+    Ok((FDistribution::new(p, d2)?, p * m / d2))
+}
+
 /// The serialized form of [`ChiSquared`], validated by its constructor.
 #[derive(Deserialize)]
 struct ChiSquaredData {

@@ -39,11 +39,11 @@
 //! **Which reference for the distances?** For the reweighted estimate
 //! ([`McdFit::model`]) the common practice is χ²(p) (Rousseeuw and Van
 //! Zomeren 1990), but at small `n` it flags clean rows several times more
-//! often than nominal (measured: 18% of new rows at α = 0.025 for
+//! often than nominal (measured: 19% of new rows at α = 0.025 for
 //! `n = 21, p = 3`). When the small-sample simulation runs (`n ≤ 1000`),
 //! it also gives the Wishart degrees of freedom `m` of a scaled-F
 //! approximation, [`crate::Reference::ReweightedMcdF`], and the model uses
-//! that (measured: 2.8% at the same size; `small_sample.rs` says how `m` is
+//! that (measured: 2.6% at the same size; `small_sample.rs` says how `m` is
 //! obtained). Distances from the raw estimate ([`McdFit::raw_model`]) have
 //! heavier tails; their reference is the F approximation of Hardin and
 //! Rocke (2005), [`crate::Reference::RawMcdF`].

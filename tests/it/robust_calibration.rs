@@ -100,6 +100,7 @@ fn reweighted_reference_has_close_to_nominal_size() {
     for (n, p, reps) in [(21usize, 3usize, 200usize), (30, 6, 150)] {
         let chi2 = Reference::chi_square(p).unwrap().cutoff(0.025).unwrap();
         let (mut inside, mut fresh, mut fresh_far, mut inside_chi2) = (0, 0, 0, 0);
+        let mut fresh_chi2 = 0;
         for r in 0..reps {
             let mut rng = Rng(31 + 1000 * n as u64 + r as u64);
             let x = normal(&mut rng, n, p);
@@ -124,15 +125,18 @@ fn reweighted_reference_has_close_to_nominal_size() {
             for d2 in model.squared_distances(y.view()).unwrap() {
                 fresh += (d2 > c_new) as usize;
                 fresh_far += (d2 > c_far) as usize;
+                fresh_chi2 += (d2 > chi2) as usize;
             }
         }
         let rate_in = inside as f64 / (reps * n) as f64;
         let rate_new = fresh as f64 / (reps * 200) as f64;
         let rate_far = fresh_far as f64 / (reps * 200) as f64;
         let rate_chi2 = inside_chi2 as f64 / (reps * n) as f64;
+        let rate_chi2_new = fresh_chi2 as f64 / (reps * 200) as f64;
         eprintln!(
             "n = {n}, p = {p}: fitting rows {rate_in:.4}, new rows {rate_new:.4}, \
-             new at 0.001 {rate_far:.5}, χ² on fitting rows {rate_chi2:.4}"
+             new at 0.001 {rate_far:.5}, χ² on fitting rows {rate_chi2:.4}, \
+             χ² on new rows {rate_chi2_new:.4}"
         );
         for rate in [rate_in, rate_new] {
             assert!((0.0125..=0.04).contains(&rate), "n = {n}, p = {p}: {rate}");
