@@ -16,7 +16,7 @@
 //! Run it with `cargo run --release --example demo`. All data are generated
 //! here with a fixed seed.
 
-use mvdist::calibration::ChiSquared;
+use mvdist::calibration::Reference;
 use mvdist::control_chart::{
     chart_svg, ControlChart, FalseAlarmRate, PhaseOneSettings, PointStatus, SignalRemoval,
 };
@@ -318,12 +318,12 @@ fn new_batches_chart(
 fn qq_chart(path: &Path, d2: &[f64], p: usize) -> Result<(), Box<dyn Error>> {
     let mut sorted = d2.to_vec();
     sorted.sort_by(f64::total_cmp);
-    let chi = ChiSquared::new(p as f64)?;
+    let chi = Reference::chi_square(p)?;
     let n = sorted.len() as f64;
     let points: Vec<(f64, f64)> = sorted
         .iter()
         .enumerate()
-        .map(|(i, &d)| Ok((chi.isf(1.0 - (i as f64 + 0.5) / n)?, d)))
+        .map(|(i, &d)| Ok((chi.cutoff(1.0 - (i as f64 + 0.5) / n)?, d)))
         .collect::<Result<_, mvdist::Error>>()?;
     let top = points.iter().fold(0.0f64, |m, &(x, y)| m.max(x).max(y)) * 1.05;
     let root = SVGBackend::new(path, (560, 560)).into_drawing_area();

@@ -134,7 +134,6 @@ const _: () = {
     shared::<shrinkage::ShrinkageFit>();
     shared::<classification::Classifier<String>>();
     shared::<classification::Classifier<u32>>();
-    shared::<classification::TypicalityReference>();
     shared::<drift::ForgettingModel>();
     shared::<drift::SlidingWindowModel>();
     shared::<control_chart::ControlChart>();

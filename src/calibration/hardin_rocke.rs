@@ -41,7 +41,7 @@
 //!   the minimum covariance determinant scatter matrix estimator. *J.
 //!   Multivariate Analysis* 71, 161–190.
 
-use super::ChiSquared;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 
 /// The Wishart degrees of freedom `m` of the Hardin–Rocke approximation

@@ -1,7 +1,7 @@
 //! Fitting a distance-to-centroid classifier: per-group centroids, the
 //! scatter each group is measured with, and prior probabilities.
 
-use super::typicality::TypicalityReference;
+use crate::calibration::Reference;
 use crate::error::{Error, Result};
 use crate::moments::{Divisor, GroupMoments};
 use crate::scatter::Scatter;
@@ -27,7 +27,8 @@ use std::hash::Hash;
 /// `S_g = M_g / (n_g − 1)`; boundaries are quadrics, and each group needs
 /// more rows than variables. Reference: K. V. Mardia, J. T. Kent and
 /// J. M. Bibby, *Multivariate Analysis* (1979), §11.2–11.3.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
 pub enum Rule {
     /// One pooled within-group scatter for every group.
     Linear,
@@ -193,7 +194,7 @@ pub struct Classifier<L> {
     pub(crate) whitened_centroids: Vec<f64>,
     /// `ln π_g` (linear) or `ln π_g − ½ ln det S_g` (quadratic).
     pub(crate) score_offsets: Vec<f64>,
-    pub(crate) references: Vec<TypicalityReference>,
+    pub(crate) references: Vec<Reference>,
 }
 
 impl<L: Eq + Hash + Clone> Classifier<L> {
@@ -300,23 +301,17 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
                         out[i] = (0..=i).map(|j| w[i * p + j] * (mu[j] - centre[j])).sum();
                     }
                 }
-                // d²_unbiased = d² · (divisor / (n − G)).
-                let ratio = divisor_of(options.divisor, n, g_count) / (n - g_count) as f64;
                 for &ng in &counts {
                     references.push(
-                        TypicalityReference::pooled_scatter(ng, n - g_count, p)?
-                            .for_scaled_distances(1.0 / ratio),
+                        Reference::pooled_group(ng, n, g_count, p)?.with_divisor(options.divisor),
                     );
                 }
             }
             Rule::Quadratic => {
                 for (g, s) in group_scatters.iter().enumerate() {
                     score_offsets[g] -= 0.5 * s.log_determinant();
-                    let ng = counts[g];
-                    let ratio = divisor_of(options.divisor, ng, 1) / (ng - 1) as f64;
-                    references.push(
-                        TypicalityReference::own_scatter(ng, p)?.for_scaled_distances(1.0 / ratio),
-                    );
+                    references
+                        .push(Reference::new_row(counts[g], p)?.with_divisor(options.divisor));
                 }
             }
         }
@@ -427,9 +422,14 @@ impl<L> Classifier<L> {
         self.pooled.as_ref()
     }
 
-    /// The reference distribution of a new row's squared distance to group
-    /// `g`'s centroid; `None` if `g` is not a group number.
-    pub fn typicality_reference(&self, g: usize) -> Option<TypicalityReference> {
+    /// The law of a new row's squared distance to group `g`'s centroid,
+    /// under the scatter the rule measures that group with: for the
+    /// quadratic rule the group's own scatter ([`Reference::new_row`] with
+    /// its rows), for the linear rule the pooled one
+    /// ([`Reference::pooled_group`]), adjusted to the classifier's divisor.
+    /// Its p-value is the row's typicality. `None` if `g` is not a group
+    /// number.
+    pub fn typicality_reference(&self, g: usize) -> Option<Reference> {
         self.references.get(g).copied()
     }
 }

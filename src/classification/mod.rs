@@ -15,7 +15,8 @@
 //! * [`Classifier::predict`] and [`Classifier::predict_into`]: for each
 //!   row the most probable group, the squared distance to every centroid,
 //!   posterior probabilities (computed in log space), the
-//!   [typicality](TypicalityReference) of the row under its group, and
+//!   typicality of the row under its group (the p-value of its squared
+//!   distance under [`Classifier::typicality_reference`]), and
 //!   optionally a "no group" flag when the row is atypical of every group.
 //! * [`LeaveOneOut::estimate`] and [`Classifier::confusion_matrix`]: honest
 //!   and resubstitution error rates; leave-one-out uses closed-form
@@ -61,11 +62,9 @@ mod fit;
 mod kernel;
 mod leave_one_out;
 mod predict;
-mod typicality;
 
 pub use confusion::ConfusionMatrix;
 pub use discriminant::DiscriminantDirections;
 pub use fit::{Classifier, ClassifierOptions, GroupScatterEstimator, Priors, Rule};
 pub use leave_one_out::LeaveOneOut;
 pub use predict::{PredictOptions, Prediction, Predictions};
-pub use typicality::TypicalityReference;

@@ -4,8 +4,9 @@
 use super::diagnosis::{diagnose_centred, rated_terms_along};
 use super::{
     ChartPoint, ControlLimit, FalseAlarmRate, PhaseOneRound, PhaseOneSettings, PhaseOneStart,
-    PointOrigin, PointStatus, RatedTerm, SignalDiagnosis, SignalRemoval,
+    PointStatus, RatedTerm, SignalDiagnosis, SignalRemoval,
 };
+use crate::calibration::RowOrigin;
 use crate::data::{check_columns, check_finite, check_row_finite};
 use crate::distance::squared_distances_to;
 use crate::error::{Error, Result};
@@ -134,7 +135,7 @@ impl TryFrom<ChartData> for ControlChart {
             rounds: d.rounds,
             reached_round_cap: d.reached_round_cap,
         };
-        for origin in [PointOrigin::InEstimate, PointOrigin::New] {
+        for origin in [RowOrigin::InSample, RowOrigin::New] {
             chart.upper_limit(origin).map_err(|e| Error::Format {
                 reason: format!("the chart's estimate cannot give a control limit: {e}"),
             })?;
@@ -395,12 +396,12 @@ impl ControlChart {
         status: &[PointStatus],
     ) -> Result<Vec<ChartPoint>> {
         let t2 = squared_distances_to(&self.location, &self.point_scatter, points)?;
-        let mut limits: Vec<(PointOrigin, ControlLimit, f64)> = Vec::new();
+        let mut limits: Vec<(RowOrigin, ControlLimit, f64)> = Vec::new();
         let mut out = Vec::with_capacity(points.nrows());
         for (i, (&t, &s)) in t2.iter().zip(status).enumerate() {
             let origin = match s {
-                PointStatus::InEstimate => PointOrigin::InEstimate,
-                _ => PointOrigin::New,
+                PointStatus::InEstimate => RowOrigin::InSample,
+                _ => RowOrigin::New,
             };
             let (limit, ucl) = match limits.iter().find(|(o, _, _)| *o == origin) {
                 Some(&(_, l, u)) => (l, u),
@@ -478,7 +479,7 @@ impl ControlChart {
     pub fn diagnose(
         &self,
         point: &[f64],
-        origin: PointOrigin,
+        origin: RowOrigin,
         depth: usize,
     ) -> Result<SignalDiagnosis> {
         self.check_point(point)?;
@@ -502,7 +503,7 @@ impl ControlChart {
         &self,
         point: &[f64],
         order: &[usize],
-        origin: PointOrigin,
+        origin: RowOrigin,
     ) -> Result<Vec<RatedTerm>> {
         self.check_point(point)?;
         let c = self.centred(point.iter().copied())?;
@@ -530,22 +531,25 @@ impl ControlChart {
     ///
     /// # Errors
     /// Not expected once the chart exists (the estimate has enough points);
-    /// kept for hand-built values.
-    pub fn limit(&self, origin: PointOrigin) -> Result<ControlLimit> {
+    /// kept for hand-built values. [`Error::InvalidParameter`] for
+    /// [`RowOrigin::KnownParameters`]: a chart's points are Phase I
+    /// (`InSample`) or Phase II (`New`).
+    pub fn limit(&self, origin: RowOrigin) -> Result<ControlLimit> {
         let p = self.dim();
         let m = self.in_estimate;
         match (self.design, origin) {
-            (ChartDesign::Individuals, PointOrigin::InEstimate) => {
+            (ChartDesign::Individuals, RowOrigin::InSample) => {
                 ControlLimit::individuals_phase_one(m, p)
             }
-            (ChartDesign::Individuals, PointOrigin::New) => {
-                ControlLimit::individuals_phase_two(m, p)
-            }
-            (ChartDesign::Subgroups { size }, PointOrigin::InEstimate) => {
+            (ChartDesign::Individuals, RowOrigin::New) => ControlLimit::individuals_phase_two(m, p),
+            (ChartDesign::Subgroups { size }, RowOrigin::InSample) => {
                 ControlLimit::subgroups_phase_one(m, size, p)
             }
-            (ChartDesign::Subgroups { size }, PointOrigin::New) => {
+            (ChartDesign::Subgroups { size }, RowOrigin::New) => {
                 ControlLimit::subgroups_phase_two(m, size, p)
+            }
+            (_, RowOrigin::KnownParameters) => {
+                ControlLimit::individuals_phase_two(m, p)?.for_origin(RowOrigin::KnownParameters)
             }
         }
     }
@@ -554,7 +558,7 @@ impl ControlChart {
     ///
     /// # Errors
     /// As [`limit`](Self::limit).
-    pub fn upper_limit(&self, origin: PointOrigin) -> Result<f64> {
+    pub fn upper_limit(&self, origin: RowOrigin) -> Result<f64> {
         self.limit(origin)?.upper(self.false_alarm)
     }
 

@@ -2,124 +2,9 @@
 //! decomposition.
 
 use super::FalseAlarmRate;
-use crate::calibration::{BetaDistribution, FDistribution};
+use crate::calibration::{Law, Reference, RowOrigin};
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
-
-/// A scaled Beta or F distribution: the law of a charted statistic (or of a
-/// decomposition term) under an in-control normal process.
-///
-/// # Example
-/// ```
-/// use mvdist::control_chart::ScaledDistribution;
-///
-/// // F(2, 2) has P(X > x) = 1/(1 + x); scaled by 3: P(3X > 9) = 1/4.
-/// let d = ScaledDistribution::F { scale: 3.0, d1: 2.0, d2: 2.0 };
-/// assert!((d.p_value(9.0) - 0.25).abs() < 1e-15);
-/// assert!((d.cutoff(0.25)? - 9.0).abs() < 1e-12);
-/// # Ok::<(), mvdist::Error>(())
-/// ```
-#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(tag = "kind", rename_all = "snake_case")]
-pub enum ScaledDistribution {
-    /// `scale · Beta(a, b)`, supported on `[0, scale]`.
-    Beta {
-        /// The multiplier.
-        scale: f64,
-        /// First shape.
-        a: f64,
-        /// Second shape.
-        b: f64,
-    },
-    /// `scale · F(d1, d2)`.
-    F {
-        /// The multiplier.
-        scale: f64,
-        /// Numerator degrees of freedom.
-        d1: f64,
-        /// Denominator degrees of freedom.
-        d2: f64,
-    },
-}
-
-impl ScaledDistribution {
-    /// The multiplier `scale`.
-    pub fn scale(&self) -> f64 {
-        match *self {
-            ScaledDistribution::Beta { scale, .. } | ScaledDistribution::F { scale, .. } => scale,
-        }
-    }
-
-    /// Upper-tail probability `P(X > x)`; NaN for NaN or invalid parameters.
-    pub fn p_value(&self, x: f64) -> f64 {
-        if x.is_nan() {
-            return f64::NAN;
-        }
-        match *self {
-            ScaledDistribution::Beta { scale, a, b } => match BetaDistribution::new(a, b) {
-                Ok(_) if !(scale > 0.0) => f64::NAN,
-                Ok(_) if x >= scale => 0.0,
-                Ok(d) => d.tails_with_complement(x / scale, (scale - x) / scale).1,
-                Err(_) => f64::NAN,
-            },
-            ScaledDistribution::F { scale, d1, d2 } => match FDistribution::new(d1, d2) {
-                Ok(_) if !(scale > 0.0) => f64::NAN,
-                Ok(d) => d.sf(x / scale),
-                Err(_) => f64::NAN,
-            },
-        }
-    }
-
-    /// The value exceeded with probability `alpha`.
-    ///
-    /// # Errors
-    /// [`Error::InvalidParameter`] unless `0 < alpha < 1` and the
-    /// parameters are positive and finite, or if the cutoff is not finite.
-    pub fn cutoff(&self, alpha: f64) -> Result<f64> {
-        let value = match *self {
-            ScaledDistribution::Beta { scale, a, b } => {
-                positive_scale(scale)?;
-                // x itself: near α → 1 it is tiny and 1 − (1 − x) loses it.
-                let (x, _) = BetaDistribution::new(a, b)?.isf_with_complement(alpha)?;
-                scale * x
-            }
-            ScaledDistribution::F { scale, d1, d2 } => {
-                positive_scale(scale)?;
-                scale * FDistribution::new(d1, d2)?.isf(alpha)?
-            }
-        };
-        if value.is_finite() {
-            Ok(value)
-        } else {
-            Err(Error::NotRepresentable {
-                reason: format!("the cutoff for alpha = {alpha} of {self:?}"),
-            })
-        }
-    }
-}
-
-fn positive_scale(scale: f64) -> Result<()> {
-    if scale.is_finite() && scale > 0.0 {
-        Ok(())
-    } else {
-        Err(Error::invalid(
-            "scale",
-            format!("{scale} is not a finite positive number"),
-        ))
-    }
-}
-
-/// Whether a point's T² is judged against the estimate it helped form.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum PointOrigin {
-    /// The point is one of those the location and scatter were estimated
-    /// from (Phase I).
-    InEstimate,
-    /// The point is independent of the estimate (Phase II, or a Phase I
-    /// point removed from the estimate).
-    New,
-}
 
 /// The upper control limit of a T² chart, by chart design and phase.
 ///
@@ -249,27 +134,43 @@ impl ControlLimit {
         }
     }
 
-    /// Whether charted points belong to the estimate (Phase I).
-    pub fn origin(&self) -> PointOrigin {
+    /// Whether charted points belong to the estimate (Phase I:
+    /// [`RowOrigin::InSample`]) or not (Phase II: [`RowOrigin::New`]).
+    pub fn origin(&self) -> RowOrigin {
         match self {
             ControlLimit::IndividualsPhaseOne { .. } | ControlLimit::SubgroupsPhaseOne { .. } => {
-                PointOrigin::InEstimate
+                RowOrigin::InSample
             }
-            _ => PointOrigin::New,
+            _ => RowOrigin::New,
         }
     }
 
     /// The limit of the same design and estimate for the other kind of
     /// point (Phase I ↔ Phase II).
-    pub fn for_origin(&self, origin: PointOrigin) -> ControlLimit {
+    ///
+    /// # Errors
+    /// [`Error::InvalidParameter`] for [`RowOrigin::KnownParameters`]: a
+    /// chart's limits are those of an estimated location and scatter.
+    pub fn for_origin(&self, origin: RowOrigin) -> Result<ControlLimit> {
         use ControlLimit::*;
-        match (*self, origin) {
-            (IndividualsPhaseOne { observations, dim }, PointOrigin::New)
-            | (IndividualsPhaseTwo { observations, dim }, PointOrigin::New) => {
+        let phase_one = match origin {
+            RowOrigin::InSample => true,
+            RowOrigin::New => false,
+            RowOrigin::KnownParameters => {
+                return Err(Error::invalid(
+                    "row origin",
+                    "a T² chart estimates its location and scatter; its points are \
+                     Phase I (RowOrigin::InSample) or Phase II (RowOrigin::New)",
+                ))
+            }
+        };
+        Ok(match (*self, phase_one) {
+            (IndividualsPhaseOne { observations, dim }, false)
+            | (IndividualsPhaseTwo { observations, dim }, false) => {
                 IndividualsPhaseTwo { observations, dim }
             }
-            (IndividualsPhaseOne { observations, dim }, PointOrigin::InEstimate)
-            | (IndividualsPhaseTwo { observations, dim }, PointOrigin::InEstimate) => {
+            (IndividualsPhaseOne { observations, dim }, true)
+            | (IndividualsPhaseTwo { observations, dim }, true) => {
                 IndividualsPhaseOne { observations, dim }
             }
             (
@@ -277,16 +178,13 @@ impl ControlLimit {
                     subgroups,
                     size,
                     dim,
-                },
-                PointOrigin::New,
-            )
-            | (
-                SubgroupsPhaseTwo {
+                }
+                | SubgroupsPhaseTwo {
                     subgroups,
                     size,
                     dim,
                 },
-                PointOrigin::New,
+                false,
             ) => SubgroupsPhaseTwo {
                 subgroups,
                 size,
@@ -297,22 +195,19 @@ impl ControlLimit {
                     subgroups,
                     size,
                     dim,
-                },
-                PointOrigin::InEstimate,
-            )
-            | (
-                SubgroupsPhaseTwo {
+                }
+                | SubgroupsPhaseTwo {
                     subgroups,
                     size,
                     dim,
                 },
-                PointOrigin::InEstimate,
+                true,
             ) => SubgroupsPhaseOne {
                 subgroups,
                 size,
                 dim,
             },
-        }
+        })
     }
 
     /// The in-control law of a point's T² (see the table above).
@@ -320,8 +215,25 @@ impl ControlLimit {
     /// # Errors
     /// As the constructors (the fields are public, so a hand-built value is
     /// re-checked here).
-    pub fn distribution(&self) -> Result<ScaledDistribution> {
-        self.term_or_total(None)
+    pub fn distribution(&self) -> Result<Reference> {
+        match *self {
+            ControlLimit::IndividualsPhaseOne { observations, dim } => {
+                Reference::phase_one_individuals(observations, dim)
+            }
+            ControlLimit::IndividualsPhaseTwo { observations, dim } => {
+                Reference::phase_two_individuals(observations, dim)
+            }
+            ControlLimit::SubgroupsPhaseOne {
+                subgroups,
+                size,
+                dim,
+            } => Reference::phase_one_subgroups(subgroups, size, dim),
+            ControlLimit::SubgroupsPhaseTwo {
+                subgroups,
+                size,
+                dim,
+            } => Reference::phase_two_subgroups(subgroups, size, dim),
+        }
     }
 
     /// The in-control law of a decomposition term `T²_{j·J}` with `k = |J|`
@@ -364,11 +276,7 @@ impl ControlLimit {
     /// # Errors
     /// As [`distribution`](Self::distribution); [`Error::InvalidParameter`]
     /// unless `k < p` and `t2_given` is finite and non-negative.
-    pub fn term_distribution(
-        &self,
-        conditioned: usize,
-        t2_given: f64,
-    ) -> Result<ScaledDistribution> {
+    pub fn term_distribution(&self, conditioned: usize, t2_given: f64) -> Result<Reference> {
         self.distribution()?;
         if conditioned >= self.dim() {
             return Err(Error::invalid(
@@ -385,107 +293,84 @@ impl ControlLimit {
                 format!("{t2_given} is not a finite non-negative number"),
             ));
         }
-        let base = self.term_or_total(Some(conditioned))?;
-        Ok(self.with_leverage(base, conditioned, t2_given))
+        let base = self.zero_leverage_term(conditioned)?;
+        self.with_leverage(base, conditioned, t2_given)
     }
 
     /// Adds the regression leverage of a point with `T²_J = t2_given` to the
     /// zero-leverage term law `base` (see [`term_distribution`](Self::term_distribution)).
-    fn with_leverage(
-        &self,
-        base: ScaledDistribution,
-        conditioned: usize,
-        t2_given: f64,
-    ) -> ScaledDistribution {
-        if conditioned == 0 || t2_given == 0.0 {
-            return base;
-        }
-        match (*self, base) {
-            (
-                ControlLimit::IndividualsPhaseOne { .. },
-                ScaledDistribution::Beta { scale, a, b },
-            ) => ScaledDistribution::Beta {
-                // A fitting point has T²_J ≤ (m−1)²/m; rounding may put it
-                // a hair above, where the term is 0: keep the law proper.
-                scale: (scale - t2_given).max(scale * f64::EPSILON),
-                a,
-                b,
-            },
-            (limit, ScaledDistribution::F { scale, d1, d2 }) => {
-                let (m, f) = match limit {
-                    ControlLimit::IndividualsPhaseOne { observations, .. }
-                    | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
-                        (observations as f64, observations as f64 - 1.0)
+    fn with_leverage(&self, base: Law, conditioned: usize, t2_given: f64) -> Result<Reference> {
+        let law = if conditioned == 0 || t2_given == 0.0 {
+            base
+        } else {
+            match (*self, base) {
+                (ControlLimit::IndividualsPhaseOne { .. }, Law::ScaledBeta { scale, a, b }) => {
+                    Law::ScaledBeta {
+                        // A fitting point has T²_J ≤ (m−1)²/m; rounding may
+                        // put it a hair above, where the term is 0: keep the
+                        // law proper.
+                        scale: (scale - t2_given).max(scale * f64::EPSILON),
+                        a,
+                        b,
                     }
-                    ControlLimit::SubgroupsPhaseOne {
-                        subgroups, size, ..
-                    }
-                    | ControlLimit::SubgroupsPhaseTwo {
-                        subgroups, size, ..
-                    } => (subgroups as f64, subgroups as f64 * (size as f64 - 1.0)),
-                };
-                let spread = if limit.origin() == PointOrigin::New {
-                    1.0 + 1.0 / m
-                } else {
-                    1.0 - 1.0 / m
-                };
-                ScaledDistribution::F {
-                    scale: scale * (spread + t2_given / f) / spread,
-                    d1,
-                    d2,
                 }
+                (limit, Law::ScaledF { scale, d1, d2 }) => {
+                    let (m, f) = match limit {
+                        ControlLimit::IndividualsPhaseOne { observations, .. }
+                        | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
+                            (observations as f64, observations as f64 - 1.0)
+                        }
+                        ControlLimit::SubgroupsPhaseOne {
+                            subgroups, size, ..
+                        }
+                        | ControlLimit::SubgroupsPhaseTwo {
+                            subgroups, size, ..
+                        } => (subgroups as f64, subgroups as f64 * (size as f64 - 1.0)),
+                    };
+                    let spread = if limit.origin() == RowOrigin::New {
+                        1.0 + 1.0 / m
+                    } else {
+                        1.0 - 1.0 / m
+                    };
+                    Law::ScaledF {
+                        scale: scale * (spread + t2_given / f) / spread,
+                        d1,
+                        d2,
+                    }
+                }
+                (_, other) => other,
             }
-            (_, other) => other,
+        };
+        match law {
+            Law::ScaledBeta { scale, a, b } => Reference::scaled_beta(scale, a, b),
+            Law::ScaledF { scale, d1, d2 } => Reference::scaled_f(scale, d1, d2),
+            _ => Err(Error::invalid(
+                "control limit",
+                "no term law for this design",
+            )),
         }
     }
 
-    fn term_or_total(&self, conditioned: Option<usize>) -> Result<ScaledDistribution> {
-        let p = self.dim();
-        if p == 0 {
-            return Err(Error::invalid(
-                "dim",
-                "the number of variables must be at least 1",
-            ));
-        }
-        let pf = p as f64;
-        match *self {
-            ControlLimit::IndividualsPhaseOne { observations, .. }
-            | ControlLimit::IndividualsPhaseTwo { observations, .. } => {
-                let phase_one = matches!(self, ControlLimit::IndividualsPhaseOne { .. });
-                let needed = p.saturating_add(if phase_one { 2 } else { 1 });
-                if observations < needed {
-                    return Err(Error::TooFewRows {
-                        rows: observations,
-                        needed,
-                        columns: p,
-                    });
-                }
+    /// The law of a term with `k` conditioning variables at zero leverage;
+    /// the design was validated by [`distribution`](Self::distribution).
+    fn zero_leverage_term(&self, k: usize) -> Result<Law> {
+        let kf = k as f64;
+        Ok(match *self {
+            ControlLimit::IndividualsPhaseOne { observations, .. } => {
                 let m = observations as f64;
-                Ok(match (phase_one, conditioned) {
-                    (true, None) => ScaledDistribution::Beta {
-                        scale: (m - 1.0) * (m - 1.0) / m,
-                        a: pf / 2.0,
-                        b: (m - pf - 1.0) / 2.0,
-                    },
-                    (true, Some(k)) => ScaledDistribution::Beta {
-                        scale: (m - 1.0) * (m - 1.0) / m,
-                        a: 0.5,
-                        b: (m - k as f64 - 2.0) / 2.0,
-                    },
-                    (false, None) => ScaledDistribution::F {
-                        scale: pf * (m + 1.0) * (m - 1.0) / (m * (m - pf)),
-                        d1: pf,
-                        d2: m - pf,
-                    },
-                    (false, Some(k)) => {
-                        let kf = k as f64;
-                        ScaledDistribution::F {
-                            scale: (m + 1.0) * (m - 1.0) / (m * (m - kf - 1.0)),
-                            d1: 1.0,
-                            d2: m - kf - 1.0,
-                        }
-                    }
-                })
+                Law::ScaledBeta {
+                    scale: (m - 1.0) * (m - 1.0) / m,
+                    a: 0.5,
+                    b: (m - kf - 2.0) / 2.0,
+                }
+            }
+            ControlLimit::IndividualsPhaseTwo { observations, .. } => {
+                let m = observations as f64;
+                Law::ScaledF {
+                    scale: (m + 1.0) * (m - 1.0) / (m * (m - kf - 1.0)),
+                    d1: 1.0,
+                    d2: m - kf - 1.0,
+                }
             }
             ControlLimit::SubgroupsPhaseOne {
                 subgroups, size, ..
@@ -494,49 +379,16 @@ impl ControlLimit {
                 subgroups, size, ..
             } => {
                 let phase_one = matches!(self, ControlLimit::SubgroupsPhaseOne { .. });
-                if size < 2 {
-                    return Err(Error::invalid(
-                        "subgroup size",
-                        format!(
-                            "{size}; subgroups need at least 2 rows for a within-subgroup scatter"
-                        ),
-                    ));
-                }
-                let min_groups = if phase_one { 2 } else { 1 };
-                if subgroups < min_groups {
-                    return Err(Error::invalid(
-                        "subgroups",
-                        format!("{subgroups}; at least {min_groups} are needed"),
-                    ));
-                }
-                let f = subgroups.saturating_mul(size - 1);
-                if f < p {
-                    let groups_needed = p.div_ceil(size - 1).max(min_groups);
-                    return Err(Error::TooFewRows {
-                        rows: subgroups.saturating_mul(size),
-                        needed: groups_needed.saturating_mul(size),
-                        columns: p,
-                    });
-                }
-                let (m, n, ff) = (subgroups as f64, size as f64, f as f64);
+                let m = subgroups as f64;
+                let ff = m * (size as f64 - 1.0);
                 let factor = if phase_one { m - 1.0 } else { m + 1.0 };
-                Ok(match conditioned {
-                    None => ScaledDistribution::F {
-                        scale: pf * factor * (n - 1.0) / (ff - pf + 1.0),
-                        d1: pf,
-                        d2: ff - pf + 1.0,
-                    },
-                    Some(k) => {
-                        let kf = k as f64;
-                        ScaledDistribution::F {
-                            scale: factor / m * ff / (ff - kf),
-                            d1: 1.0,
-                            d2: ff - kf,
-                        }
-                    }
-                })
+                Law::ScaledF {
+                    scale: factor / m * ff / (ff - kf),
+                    d1: 1.0,
+                    d2: ff - kf,
+                }
             }
-        }
+        })
     }
 
     /// The upper control limit for the given false-alarm rate.

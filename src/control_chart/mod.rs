@@ -84,7 +84,7 @@ mod svg;
 pub use chart::{ChartDesign, ControlChart};
 pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;
-pub use limits::{ControlLimit, PointOrigin, ScaledDistribution};
+pub use limits::ControlLimit;
 pub use point::{ChartPoint, PhaseOneRound, PointStatus};
 pub use settings::{PhaseOneSettings, PhaseOneStart, SignalRemoval};
 pub use svg::chart_svg;

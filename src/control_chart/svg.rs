@@ -1,7 +1,8 @@
 //! A T² chart drawn as a standalone SVG document (written by hand: the
 //! library has no plotting dependency).
 
-use super::{ChartPoint, ControlChart, PointOrigin, PointStatus};
+use super::{ChartPoint, ControlChart, PointStatus};
+use crate::calibration::RowOrigin;
 use crate::error::Result;
 use std::fmt::Write;
 
@@ -143,8 +144,8 @@ fn probability(p: f64) -> String {
 /// ```
 pub fn chart_svg(chart: &ControlChart, phase_two: &[ChartPoint], title: &str) -> Result<String> {
     let phase_one = chart.phase_one_points();
-    let ucl1 = chart.upper_limit(PointOrigin::InEstimate)?;
-    let ucl2 = chart.upper_limit(PointOrigin::New)?;
+    let ucl1 = chart.upper_limit(RowOrigin::InSample)?;
+    let ucl2 = chart.upper_limit(RowOrigin::New)?;
     let values: Vec<f64> = phase_one
         .iter()
         .chain(phase_two)

@@ -1,58 +1,24 @@
 //! Box's M test of equal scatter matrices across groups.
 
 use super::sample_moments;
-use crate::calibration::{check_probability, ChiSquared, FDistribution};
+use crate::calibration::{check_probability, Reference, TestStatistic};
+use crate::classification::Rule;
 use crate::error::{Error, Result};
 use crate::moments::{Divisor, GroupMoments};
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
 
-/// Which discriminant rule the scatter test points to.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum ClassificationRule {
-    /// Equal scatters are plausible: a linear rule with the pooled scatter
-    /// (fewer parameters, more stable).
-    Linear,
-    /// The scatters differ: a quadratic rule with one scatter per group.
-    Quadratic,
-}
-
-/// Box's χ² approximation: `(1 − c₁) M ~ χ²(p(p+1)(g−1)/2)`.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
-pub struct ChiSquareApproximation {
-    /// `(1 − c₁) M`.
-    pub statistic: f64,
-    /// `p(p+1)(g−1)/2`.
-    pub dof: f64,
-    /// Upper-tail probability.
-    pub p_value: f64,
-}
-
-/// Box's F approximation to the distribution of `M`.
-#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
-pub struct FApproximation {
-    /// The F statistic.
-    pub statistic: f64,
-    /// Numerator degrees of freedom `p(p+1)(g−1)/2`.
-    pub numerator_dof: f64,
-    /// Denominator degrees of freedom.
-    pub denominator_dof: f64,
-    /// Upper-tail probability.
-    pub p_value: f64,
-}
-
 /// The result of Box's M test; see [`scatter_equality`].
 ///
 /// # Example
 /// ```
-/// use mvdist::mean_tests::{scatter_equality, ClassificationRule};
+/// use mvdist::{classification::Rule, mean_tests::scatter_equality};
 /// use ndarray::array;
 ///
 /// let a = array![[1.0, 2.0], [2.0, 2.5], [3.0, 4.5], [4.0, 4.0], [2.5, 3.0], [3.5, 3.2]];
 /// let b = array![[10.0, 1.0], [30.0, -9.0], [-5.0, 12.0], [22.0, 0.0], [0.0, 20.0], [15.0, 5.0]];
 /// let m = scatter_equality(&[a.view(), b.view()])?;
-/// assert_eq!(m.suggested_rule(0.05)?, ClassificationRule::Quadratic);
+/// assert_eq!(m.suggested_rule(0.05)?, Rule::Quadratic);
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
@@ -60,8 +26,8 @@ pub struct ScatterEquality {
     statistic: f64,
     group_sizes: Vec<usize>,
     dim: usize,
-    chi_square: ChiSquareApproximation,
-    f: Option<FApproximation>,
+    chi_square: TestStatistic,
+    f: Option<TestStatistic>,
 }
 
 impl ScatterEquality {
@@ -80,27 +46,28 @@ impl ScatterEquality {
         self.dim
     }
 
-    /// The χ² approximation.
-    pub fn chi_square(&self) -> ChiSquareApproximation {
+    /// Box's χ² approximation: `(1 − c₁) M` referred to χ² with
+    /// `p(p+1)(g−1)/2` degrees of freedom ([`Reference::box_m_chi_square`]).
+    pub fn chi_square(&self) -> TestStatistic {
         self.chi_square
     }
 
-    /// The F approximation; `None` where it is undefined (the two
-    /// moment constants coincide, or `M` exceeds the approximation's
-    /// range).
-    pub fn f(&self) -> Option<FApproximation> {
+    /// Box's F approximation: the F statistic referred to
+    /// [`Reference::box_m_f`]; `None` where it is undefined (the two moment
+    /// constants coincide, or `M` exceeds the approximation's range).
+    pub fn f(&self) -> Option<TestStatistic> {
         self.f
     }
 
     /// The p-value used for decisions: the F approximation's when defined
     /// (the more accurate of the two for small groups), else the χ² one.
     pub fn p_value(&self) -> f64 {
-        self.f.map_or(self.chi_square.p_value, |f| f.p_value)
+        self.f.map_or(self.chi_square.p_value(), |f| f.p_value())
     }
 
-    /// [`ClassificationRule::Quadratic`] when equality is rejected at level
+    /// [`Rule::Quadratic`] when equality is rejected at level
     /// `alpha` ([`p_value`](Self::p_value) ≤ `alpha`), else
-    /// [`ClassificationRule::Linear`].
+    /// [`Rule::Linear`].
     ///
     /// Box's M is very sensitive to non-normality (heavy tails inflate it)
     /// and, with large groups, rejects for differences too small to matter;
@@ -109,12 +76,12 @@ impl ScatterEquality {
     ///
     /// # Errors
     /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
-    pub fn suggested_rule(&self, alpha: f64) -> Result<ClassificationRule> {
+    pub fn suggested_rule(&self, alpha: f64) -> Result<Rule> {
         check_probability(alpha)?;
         Ok(if self.p_value() <= alpha {
-            ClassificationRule::Quadratic
+            Rule::Quadratic
         } else {
-            ClassificationRule::Linear
+            Rule::Linear
         })
     }
 }
@@ -156,7 +123,8 @@ impl ScatterEquality {
 /// let b = array![[1.2, 2.2], [2.1, 2.0], [3.3, 4.0], [3.8, 4.4], [2.4, 3.5]];
 /// let m = scatter_equality(&[a.view(), b.view()])?;
 /// assert!(m.statistic() >= 0.0);
-/// assert_eq!(m.chi_square().dof, 3.0);
+/// use mvdist::calibration::Law;
+/// assert_eq!(m.chi_square().reference().law(), Law::ChiSquare { dof: 3.0 });
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 pub fn scatter_equality(groups: &[ArrayView2<'_, f64>]) -> Result<ScatterEquality> {
@@ -200,11 +168,7 @@ pub fn scatter_equality(groups: &[ArrayView2<'_, f64>]) -> Result<ScatterEqualit
         (sum_inv_sq - 1.0 / (nu_total * nu_total)) * (pf - 1.0) * (pf + 2.0) / (6.0 * (gf - 1.0));
     let df1 = pf * (pf + 1.0) * (gf - 1.0) / 2.0;
     let chi_stat = (1.0 - c1) * statistic;
-    let chi_square = ChiSquareApproximation {
-        statistic: chi_stat,
-        dof: df1,
-        p_value: ChiSquared::new(df1)?.sf(chi_stat),
-    };
+    let chi_square = TestStatistic::new(chi_stat, Reference::box_m_chi_square(g, p)?);
     let gap = c2 - c1 * c1;
     let f = if gap.abs() > 1e-12 * c1.abs().max(c2.abs()) {
         let df2 = (df1 + 2.0) / gap.abs();
@@ -220,19 +184,14 @@ pub fn scatter_equality(groups: &[ArrayView2<'_, f64>]) -> Result<ScatterEqualit
             }
         };
         if stat.is_finite() && df2.is_finite() {
-            Some(FApproximation {
-                statistic: stat,
-                numerator_dof: df1,
-                denominator_dof: df2,
-                p_value: FDistribution::new(df1, df2)?.sf(stat),
-            })
+            Some(TestStatistic::new(stat, Reference::box_m_f(df1, df2)?))
         } else {
             None
         }
     } else {
         None
     };
-    if !statistic.is_finite() || !chi_square.p_value.is_finite() {
+    if !statistic.is_finite() || !chi_square.p_value().is_finite() {
         return Err(Error::Overflow { row: 0 });
     }
     Ok(ScatterEquality {

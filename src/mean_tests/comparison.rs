@@ -1,6 +1,7 @@
 //! The result of a T² comparison of means, with its confidence intervals.
 
-use crate::calibration::{check_probability, FDistribution};
+use crate::calibration::check_probability;
+use crate::distributions::FDistribution;
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 

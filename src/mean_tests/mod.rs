@@ -75,9 +75,7 @@ mod paired;
 mod two_sample;
 mod unequal_scatter;
 
-pub use box_m::{
-    scatter_equality, ChiSquareApproximation, ClassificationRule, FApproximation, ScatterEquality,
-};
+pub use box_m::{scatter_equality, ScatterEquality};
 pub use comparison::{Interval, MeanComparison, MeanInterval, MeanTestKind};
 pub use one_sample::one_sample;
 pub use paired::paired;

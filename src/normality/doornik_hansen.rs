@@ -34,7 +34,7 @@
 //!   distribution of g₁. *Biometrika* 57, 679–681.
 
 use super::blocks::{fit_ml, power_sums, RowMap};
-use crate::calibration::ChiSquared;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 use crate::kernels::linalg;
 use ndarray::ArrayView2;

@@ -29,8 +29,8 @@
 //! Methods* 19, 3595–3617.
 
 use super::blocks::fit_ml;
-use super::normal;
 use super::pairwise::{gaussian_pair_sum, TransposedRows};
+use crate::distributions::normal;
 use crate::error::{Error, Result};
 use crate::whitening::WhiteningKind;
 use ndarray::ArrayView2;
@@ -179,9 +179,26 @@ impl HenzeZirkler {
         if !(self.statistic > 0.0) {
             return 1.0;
         }
+        let (m, s) = self.lognormal_parameters();
+        normal::upper_tail((self.statistic.ln() - m) / s)
+    }
+
+    /// `(m, s)`: the mean and standard deviation of `ln T_β` under the
+    /// lognormal law with the null mean and variance.
+    fn lognormal_parameters(&self) -> (f64, f64) {
         let mu = self.null_mean();
         let s2 = (self.null_variance() / (mu * mu)).ln_1p();
-        let m = mu.ln() - 0.5 * s2;
-        normal::upper_tail((self.statistic.ln() - m) / s2.sqrt())
+        (mu.ln() - 0.5 * s2, s2.sqrt())
+    }
+
+    /// The lognormal law the statistic is referred to
+    /// ([`p_value`](Self::p_value) is its upper tail).
+    ///
+    /// # Errors
+    /// [`crate::Error::InvalidParameter`] if the null moments give no
+    /// proper lognormal law (not expected for a computed test).
+    pub fn reference(&self) -> Result<crate::calibration::Reference> {
+        let (m, s) = self.lognormal_parameters();
+        crate::calibration::Reference::lognormal(m, s)
     }
 }

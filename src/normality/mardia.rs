@@ -32,8 +32,8 @@
 //!   *Sankhyā B* 36, 115–128.
 
 use super::blocks::{fit_ml, fold_mapped, RowMap, BLOCK};
-use super::normal;
-use crate::calibration::ChiSquared;
+use crate::distributions::normal;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 use crate::kernels::lanes::{fmadd, lane_sum};
 use ndarray::ArrayView2;

@@ -61,7 +61,6 @@ pub mod doornik_hansen;
 pub mod henze_zirkler;
 pub mod mardia;
 mod marginal;
-mod normal;
 mod pairwise;
 mod qq;
 mod report;
@@ -74,8 +73,8 @@ pub use mardia::Mardia;
 pub use marginal::VariableShape;
 pub use qq::ChiSquareQq;
 pub use report::{
-    format_p_value, NormalityOptions, NormalityReport, NormalityTest, ReferenceLaw, SkippedTest,
-    TestOutcome, TestSummary, VariableSummary, CAUTION,
+    format_p_value, NormalityOptions, NormalityReport, NormalityTest, SkippedTest, TestOutcome,
+    TestSummary, VariableSummary, CAUTION,
 };
 pub use royston::RoystonH;
 pub use shapiro_wilk::{ShapiroWilk, ShapiroWilkCoefficients};

@@ -18,7 +18,7 @@
 //! 28, 81–124.
 
 use super::blocks::fit_ml;
-use crate::calibration::ChiSquared;
+use crate::distributions::ChiSquared;
 use crate::error::Result;
 use ndarray::ArrayView2;
 use rayon::prelude::*;

@@ -7,7 +7,7 @@ use super::mardia::Mardia;
 use super::marginal::VariableShape;
 use super::royston::RoystonH;
 use super::shapiro_wilk;
-use crate::calibration::check_probability;
+use crate::calibration::{check_probability, Reference};
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
 use serde::{Deserialize, Serialize};
@@ -98,19 +98,6 @@ impl NormalityTest {
     }
 }
 
-/// The distribution a statistic is referred to.
-#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-#[non_exhaustive]
-pub enum ReferenceLaw {
-    /// χ² with `degrees_of_freedom`, upper tail.
-    ChiSquare,
-    /// Standard normal, two-sided.
-    StandardNormalTwoSided,
-    /// Lognormal with the statistic's null mean and variance, upper tail.
-    Lognormal,
-}
-
 /// One computed test.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -120,10 +107,9 @@ pub struct TestSummary {
     pub test: NormalityTest,
     /// The test statistic (what is referred to `reference`).
     pub statistic: f64,
-    /// The reference distribution.
-    pub reference: ReferenceLaw,
-    /// Degrees of freedom, for χ² references.
-    pub degrees_of_freedom: Option<f64>,
+    /// The law the statistic is referred to, with its degrees of freedom
+    /// or parameters ([`Reference::law`]).
+    pub reference: Reference,
     /// The p-value.
     pub p_value: f64,
     /// Whether `p_value ≤ alpha`.
@@ -325,8 +311,7 @@ impl NormalityReport {
                 tests.push(summary(
                     NormalityTest::MardiaSkewness,
                     m.skewness_statistic(),
-                    ReferenceLaw::ChiSquare,
-                    Some(df),
+                    Reference::chi_square_statistic(df),
                     m.skewness_p_value(),
                     b1.clone(),
                     n,
@@ -337,8 +322,7 @@ impl NormalityReport {
                 tests.push(summary(
                     NormalityTest::MardiaSkewnessSmallSample,
                     m.corrected_skewness_statistic(),
-                    ReferenceLaw::ChiSquare,
-                    Some(df),
+                    Reference::chi_square_statistic(df),
                     m.corrected_skewness_p_value(),
                     b1k,
                     n,
@@ -347,8 +331,7 @@ impl NormalityReport {
                 tests.push(summary(
                     NormalityTest::MardiaKurtosis,
                     m.kurtosis_statistic(),
-                    ReferenceLaw::StandardNormalTwoSided,
-                    None,
+                    Ok(Reference::standard_normal_two_sided()),
                     m.kurtosis_p_value(),
                     details(&[
                         ("b2p", m.kurtosis()),
@@ -384,8 +367,7 @@ impl NormalityReport {
                 Ok(h) => summary(
                     NormalityTest::HenzeZirkler,
                     h.statistic(),
-                    ReferenceLaw::Lognormal,
-                    None,
+                    h.reference(),
                     h.p_value(),
                     details(&[
                         ("smoothing", h.smoothing()),
@@ -403,8 +385,7 @@ impl NormalityReport {
             Ok(r) => summary(
                 NormalityTest::RoystonH,
                 r.statistic(),
-                ReferenceLaw::ChiSquare,
-                Some(r.equivalent_degrees_of_freedom()),
+                Reference::chi_square_statistic(r.equivalent_degrees_of_freedom()),
                 r.p_value(),
                 details(&[(
                     "mean_transformed_correlation",
@@ -420,8 +401,7 @@ impl NormalityReport {
             Ok(d) => summary(
                 NormalityTest::DoornikHansen,
                 d.statistic(),
-                ReferenceLaw::ChiSquare,
-                Some(d.degrees_of_freedom()),
+                Reference::chi_square_statistic(d.degrees_of_freedom()),
                 d.p_value(),
                 BTreeMap::new(),
                 n,
@@ -529,13 +509,16 @@ pub fn format_p_value(p: f64) -> String {
 fn summary(
     test: NormalityTest,
     statistic: f64,
-    reference: ReferenceLaw,
-    degrees_of_freedom: Option<f64>,
+    reference: Result<Reference>,
     p_value: f64,
     details: BTreeMap<String, f64>,
     n: usize,
     alpha: f64,
 ) -> TestOutcome {
+    let reference = match reference {
+        Ok(r) => r,
+        Err(e) => return skipped(test, &e),
+    };
     let significant = p_value <= alpha;
     let p = format_p_value(p_value);
     let reading = if significant {
@@ -572,7 +555,6 @@ fn summary(
         test,
         statistic,
         reference,
-        degrees_of_freedom,
         p_value,
         significant,
         reading,

@@ -27,9 +27,9 @@
 //!   non-normality. *Statistics and Computing* 2, 117–119.
 
 use super::blocks::fit_ml;
-use super::normal;
 use super::shapiro_wilk::{ShapiroWilk, ShapiroWilkCoefficients};
-use crate::calibration::ChiSquared;
+use crate::distributions::normal;
+use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
 use rayon::prelude::*;

@@ -38,7 +38,7 @@
 //! - P. Royston (1995). Remark AS R94: A remark on algorithm AS 181: the
 //!   W-test for normality. *Applied Statistics* 44, 547–551.
 
-use super::normal;
+use crate::distributions::normal;
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
 

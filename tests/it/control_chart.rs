@@ -4,10 +4,11 @@
 //! release mode) false-alarm calibration by simulation.
 
 use crate::common::{fixture, rel, Rng};
+use mvdist::calibration::Law;
 use mvdist::control_chart::decomposition::{conditional_terms, term_count, terms_along};
 use mvdist::control_chart::{
     chart_svg, ChartDesign, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,
-    PhaseOneStart, PointOrigin, PointStatus, ScaledDistribution, SignalRemoval,
+    PhaseOneStart, PointStatus, SignalRemoval,
 };
 use mvdist::moments::{Divisor, GroupMoments};
 use mvdist::{DistanceModel, Error, RowOrigin, Scatter};
@@ -99,8 +100,8 @@ fn term_laws_reduce_to_the_chart_laws_for_one_variable() {
             ),
         ] {
             assert_eq!(
-                limit.term_distribution(0, 0.0).unwrap(),
-                one_var.distribution().unwrap()
+                limit.term_distribution(0, 0.0).unwrap().law(),
+                one_var.distribution().unwrap().law()
             );
         }
         // Published Phase II conditional law (Mason, Tracy and Young 1995):
@@ -112,8 +113,8 @@ fn term_laws_reduce_to_the_chart_laws_for_one_variable() {
         let mf = m as f64;
         let published = (mf + 1.0) * (mf - 1.0) / (mf * (mf - 3.0));
         assert_eq!(
-            d,
-            ScaledDistribution::F {
+            d.law(),
+            Law::ScaledF {
                 scale: published,
                 d1: 1.0,
                 d2: mf - 3.0
@@ -289,14 +290,14 @@ fn phase_one_removes_signals_until_clean_and_respects_the_cap() {
         assert!(matches!(pt.status, PointStatus::Removed { .. }), "{i}");
         assert!(pt.signal, "{i}");
         // Removed points are judged by the Phase II limit.
-        assert_eq!(pt.upper_limit, chart.upper_limit(PointOrigin::New).unwrap());
+        assert_eq!(pt.upper_limit, chart.upper_limit(RowOrigin::New).unwrap());
     }
     for pt in chart.phase_one_points() {
         if pt.status == PointStatus::InEstimate {
             assert!(!pt.signal);
             assert_eq!(
                 pt.upper_limit,
-                chart.upper_limit(PointOrigin::InEstimate).unwrap()
+                chart.upper_limit(RowOrigin::InSample).unwrap()
             );
         }
     }
@@ -420,7 +421,7 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
     let chart = ControlChart::individuals(x.view(), &PhaseOneSettings::default()).unwrap();
     let point = [0.5, 2.5, -1.0, 0.3];
     let terms = chart
-        .decompose_along(&point, &[3, 1, 0, 2], PointOrigin::New)
+        .decompose_along(&point, &[3, 1, 0, 2], RowOrigin::New)
         .unwrap();
     let c: Vec<f64> = point
         .iter()
@@ -432,7 +433,7 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
     let mut given = 0.0;
     for (k, t) in terms.iter().enumerate() {
         let law = chart
-            .limit(PointOrigin::New)
+            .limit(RowOrigin::New)
             .unwrap()
             .term_distribution(k, given)
             .unwrap();
@@ -445,7 +446,7 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
         assert_eq!(t.p_value, law.p_value(t.value));
         given += t.value;
     }
-    let d = chart.diagnose(&point, PointOrigin::New, 3).unwrap();
+    let d = chart.diagnose(&point, RowOrigin::New, 3).unwrap();
     assert_eq!(d.terms.len(), 32);
     for w in d.terms.windows(2) {
         assert!(w[0].p_value <= w[1].p_value);
@@ -495,11 +496,11 @@ fn chart_errors_are_typed() {
         })
     ));
     assert!(matches!(
-        ok.diagnose(&[1.0], PointOrigin::New, 1),
+        ok.diagnose(&[1.0], RowOrigin::New, 1),
         Err(Error::ShapeMismatch { .. })
     ));
     assert!(ok
-        .decompose_along(&[1.0, 2.0], &[0, 0], PointOrigin::New)
+        .decompose_along(&[1.0, 2.0], &[0, 0], RowOrigin::New)
         .is_err());
     w[(3, 1)] = f64::INFINITY;
     assert!(matches!(
@@ -578,14 +579,14 @@ fn in_control_false_alarm_rates_match_alpha() {
         // the conditional ones through the leverage term.
         let row: Vec<f64> = x.row(m).to_vec();
         let terms = chart
-            .decompose_along(&row, &[0, 1, 2], PointOrigin::New)
+            .decompose_along(&row, &[0, 1, 2], RowOrigin::New)
             .unwrap();
         unconditional += usize::from(terms[0].exceeds());
         conditional += usize::from(terms[2].exceeds());
         // And a Phase I point's terms against the Phase I (Beta) laws.
         let first: Vec<f64> = x.row(0).to_vec();
         let terms = chart
-            .decompose_along(&first, &[0, 1, 2], PointOrigin::InEstimate)
+            .decompose_along(&first, &[0, 1, 2], RowOrigin::InSample)
             .unwrap();
         conditional_in += usize::from(terms[2].exceeds());
     }

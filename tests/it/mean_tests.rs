@@ -6,9 +6,10 @@
 
 use crate::common;
 use crate::common::{fixture, matrix, rel, vector, Rng};
+use mvdist::classification::Rule;
 use mvdist::mean_tests::{
-    one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter,
-    ClassificationRule, MeanComparison, MeanTestKind,
+    one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter, MeanComparison,
+    MeanTestKind,
 };
 use mvdist::Error;
 use ndarray::{array, Array2};
@@ -149,17 +150,15 @@ fn box_m_matches_numpy_and_the_known_iris_value() {
     // Recalled from memory: Box's M for the iris species is 146.66 (χ² 140.94 on 20 dof).
     assert!((m.statistic() - 146.66).abs() < 0.01);
     let chi = m.chi_square();
-    assert!(rel(chi.statistic, want["chi2"].as_f64().unwrap()) < 1e-11);
-    assert_eq!(chi.dof, 20.0);
-    assert!(rel(chi.p_value, want["chi2_p"].as_f64().unwrap()) < 1e-9);
+    assert!(rel(chi.value(), want["chi2"].as_f64().unwrap()) < 1e-11);
+    assert_eq!(chi.reference().degrees_of_freedom(), [20.0]);
+    assert!(rel(chi.p_value(), want["chi2_p"].as_f64().unwrap()) < 1e-9);
     let fa = m.f().unwrap();
-    assert!(rel(fa.statistic, want["f"].as_f64().unwrap()) < 1e-10);
-    assert!(rel(fa.denominator_dof, want["f_df2"].as_f64().unwrap()) < 1e-10);
-    assert!(rel(fa.p_value, want["f_p"].as_f64().unwrap()) < 1e-8);
-    assert_eq!(
-        m.suggested_rule(0.001).unwrap(),
-        ClassificationRule::Quadratic
-    );
+    assert!(rel(fa.value(), want["f"].as_f64().unwrap()) < 1e-10);
+    let f_dof = fa.reference().degrees_of_freedom();
+    assert!(rel(f_dof[1], want["f_df2"].as_f64().unwrap()) < 1e-10);
+    assert!(rel(fa.p_value(), want["f_p"].as_f64().unwrap()) < 1e-8);
+    assert_eq!(m.suggested_rule(0.001).unwrap(), Rule::Quadratic);
 
     let wine = &f["box_m"]["wine_cultivars"];
     let wc: Vec<Array2<f64>> = ["wine_0_vs_1_pooled", "wine_1_vs_2_unequal"]
@@ -169,7 +168,7 @@ fn box_m_matches_numpy_and_the_known_iris_value() {
     // Cultivars 0, 1, 2 (the second case's `a` repeats cultivar 1).
     let m = scatter_equality(&[wc[0].view(), wc[1].view(), wc[3].view()]).unwrap();
     assert!(rel(m.statistic(), wine["m"].as_f64().unwrap()) < 1e-11);
-    assert!(rel(m.f().unwrap().p_value, wine["f_p"].as_f64().unwrap()) < 1e-8);
+    assert!(rel(m.f().unwrap().p_value(), wine["f_p"].as_f64().unwrap()) < 1e-8);
 }
 
 #[test]
@@ -179,7 +178,7 @@ fn box_m_suggests_linear_for_samples_of_one_population() {
         .map(|_| Array2::from_shape_fn((40, 3), |_| rng.normal()))
         .collect();
     let m = scatter_equality(&groups.iter().map(|g| g.view()).collect::<Vec<_>>()).unwrap();
-    assert_eq!(m.suggested_rule(0.001).unwrap(), ClassificationRule::Linear);
+    assert_eq!(m.suggested_rule(0.001).unwrap(), Rule::Linear);
 }
 
 #[test]

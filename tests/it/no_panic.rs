@@ -2,12 +2,10 @@
 //! columns, 0 rows, 0 columns) through every public entry point: each call
 //! returns `Err` or a finite result, never panics.
 
-use mvdist::calibration::{
-    adjusted_p_values, Adjustment, BetaDistribution, ChiSquared, FDistribution, Reference,
-};
+use mvdist::calibration::{adjusted_p_values, Adjustment, Reference};
 use mvdist::classification::{
     Classifier, ClassifierOptions, ConfusionMatrix, LeaveOneOut, PredictOptions, Predictions,
-    Priors, Rule, TypicalityReference,
+    Priors, Rule,
 };
 use mvdist::moments::{
     mean_and_covariance, weighted_mean_and_covariance, Divisor, ExponentialMoments, GroupMoments,
@@ -57,6 +55,11 @@ fn matrix() -> impl Strategy<Value = Array2<f64>> {
 }
 
 #[track_caller]
+/// A small count from an arbitrary value.
+fn k_of(v: f64) -> usize {
+    v.abs().min(1e6) as usize
+}
+
 fn ok_finite(r: mvdist::Result<f64>) {
     if let Ok(v) = r {
         assert!(
@@ -407,7 +410,7 @@ proptest! {
         let _ = ConfusionMatrix::from_groups(&groups, &groups[groups.len().min(1)..], 3);
         for &v in values.iter().take(3) {
             let k = v.abs().min(1e6) as usize;
-            for r in [TypicalityReference::own_scatter(k, p), TypicalityReference::pooled_scatter(k, n, p), TypicalityReference::pooled_scatter(n, k, p)].into_iter().flatten() {
+            for r in [Reference::new_row(k, p), Reference::pooled_group(k, n, 2, p), Reference::pooled_group(n, k, 3, p), Reference::pooled_group(k, k, k, p)].into_iter().flatten() {
                 let pv = r.p_value(v);
                 assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
                 ok_finite(r.cutoff(0.01));
@@ -418,10 +421,13 @@ proptest! {
         for &v in values.iter().take(6) {
             for r in [Reference::chi_square(p), Reference::new_row(n, p), Reference::in_sample(n, p),
                       Reference::raw_mcd(n, p, (n + p).div_ceil(2)), Reference::raw_mcd(n.max(p + 2), p, n.max(p + 2)),
-                      Ok(Reference::RawMcdF { n, dim: p, subset_size: v.abs().min(1e6) as usize }),
-                      Reference::reweighted_mcd(p, n as f64 + v.abs()), Ok(Reference::ReweightedMcdF { dim: p, wishart_dof: v }),
-                      Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::MaximumLikelihood }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::MaximumLikelihood }),
-                      Ok(Reference::NewRowF { n, dim: p, divisor: Divisor::Unbiased }), Ok(Reference::InSampleBeta { n, dim: p, divisor: Divisor::Unbiased })].into_iter().flatten() {
+                      Reference::raw_mcd(n, p, v.abs().min(1e6) as usize),
+                      Reference::reweighted_mcd(p, n as f64 + v.abs()), Reference::reweighted_mcd(p, v),
+                      Reference::new_row(n, p).map(|r| r.with_divisor(Divisor::MaximumLikelihood)), Reference::in_sample(n, p).map(|r| r.with_divisor(Divisor::MaximumLikelihood)),
+                      Reference::chi_square_statistic(v), Reference::scaled_beta(v.abs(), v, v.abs() + 1.0), Reference::scaled_f(v.abs(), v, 3.0),
+                      Reference::lognormal(v, v.abs()), Ok(Reference::standard_normal_two_sided()),
+                      Reference::phase_one_subgroups(n, k_of(v), p), Reference::phase_two_subgroups(n, k_of(v), p),
+                      Reference::box_m_chi_square(k_of(v), p), Reference::box_m_f(v, v.abs())].into_iter().flatten() {
                 {
                     let pv = r.p_value(v);
                     assert!(pv.is_nan() || (0.0..=1.0).contains(&pv));
@@ -429,9 +435,6 @@ proptest! {
                     ok_finite(r.cutoff(0.01));
                 }
             }
-            if let Ok(c) = ChiSquared::new(v) { let _ = c.sf(v); ok_finite(c.isf(0.01)); }
-            if let Ok(b) = BetaDistribution::new(v, v.abs() + 1.0) { let _ = b.sf(0.5); ok_finite(b.isf(0.3)); }
-            if let Ok(f) = FDistribution::new(v, 3.0) { let _ = f.sf(v); ok_finite(f.isf(0.2)); }
         }
         let probs: Vec<f64> = values.iter().map(|v| v.abs().fract()).collect();
         for adj in [Adjustment::None, Adjustment::Bonferroni, Adjustment::BenjaminiHochberg] {
@@ -444,7 +447,7 @@ proptest! {
     fn mean_tests_and_charts_never_panic(a in matrix(), b in matrix(), depth in 0usize..4, size in 0usize..4, alpha in special()) {
         use mvdist::control_chart::{
             chart_svg, decomposition, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,
-            PhaseOneStart, PointOrigin, SignalRemoval,
+            PhaseOneStart, SignalRemoval,
         };
         use mvdist::mean_tests;
         let p = a.ncols();
@@ -489,9 +492,9 @@ proptest! {
                     let _ = chart_svg(&chart, &points, "t");
                 }
                 let row: Vec<f64> = b.iter().copied().chain([1.0; 4]).take(chart.dim()).collect();
-                let _ = chart.diagnose(&row, PointOrigin::New, depth);
-                let _ = chart.decompose_along(&row, &(0..chart.dim()).rev().collect::<Vec<_>>(), PointOrigin::InEstimate);
-                let _ = chart.decompose_along(&row, &[0, 0], PointOrigin::New);
+                let _ = chart.diagnose(&row, RowOrigin::New, depth);
+                let _ = chart.decompose_along(&row, &(0..chart.dim()).rev().collect::<Vec<_>>(), RowOrigin::InSample);
+                let _ = chart.decompose_along(&row, &[0, 0], RowOrigin::New);
                 let _ = decomposition::conditional_terms(chart.point_scatter(), &row, depth);
             }
             if let Ok(model) = DistanceModel::fit(b.view()) {
@@ -647,9 +650,7 @@ where
 
 #[test]
 fn mutated_serialized_values_never_panic() {
-    use mvdist::control_chart::{
-        chart_svg, decomposition, ControlChart, PhaseOneSettings, PointOrigin, ScaledDistribution,
-    };
+    use mvdist::control_chart::{chart_svg, decomposition, ControlChart, PhaseOneSettings};
     use mvdist::mean_tests;
     use mvdist::normality::{
         ChiSquareQq, DoornikHansen, HenzeZirkler, Mardia, NormalityOptions, NormalityReport,
@@ -698,12 +699,7 @@ fn mutated_serialized_values_never_panic() {
         RowOrigin::KnownParameters,
     ] {
         survives_mutations(&model.reference(origin).unwrap(), |r| {
-            let _ = (
-                r.p_value(3.0),
-                r.cdf(3.0),
-                r.cutoff(0.01),
-                r.max_squared_distance(),
-            );
+            let _ = (r.p_value(3.0), r.cdf(3.0), r.cutoff(0.01), r.upper_bound());
         });
     }
     let acc = MomentAccumulator::from_rows(rows).unwrap();
@@ -727,25 +723,50 @@ fn mutated_serialized_values_never_panic() {
         if let Ok(points) = c.monitor(rows) {
             let _ = chart_svg(c, &points, "t");
         }
-        let _ = c.diagnose(&probe, PointOrigin::New, 2);
-        let _ = c.decompose_along(&probe, &[2, 0, 1], PointOrigin::InEstimate);
-        let _ = c.upper_limit(PointOrigin::New);
+        let _ = c.diagnose(&probe, RowOrigin::New, 2);
+        let _ = c.decompose_along(&probe, &[2, 0, 1], RowOrigin::InSample);
+        let _ = c.upper_limit(RowOrigin::New);
     });
     survives_mutations(&chart.false_alarm(), |f| {
         let _ = (f.alpha(), f.average_run_length());
     });
-    let limit = chart.limit(PointOrigin::New).unwrap();
+    let limit = chart.limit(RowOrigin::New).unwrap();
     survives_mutations(&limit, |l| {
         let _ = l.upper(chart.false_alarm());
         let _ = l.p_value(4.0);
         let _ = l.term_distribution(1, 2.0).map(|d| d.cutoff(0.01));
     });
-    survives_mutations(&limit.distribution().unwrap(), |d: &ScaledDistribution| {
+    survives_mutations(&limit.distribution().unwrap(), |d: &Reference| {
         let _ = (d.p_value(2.0), d.cutoff(0.01));
     });
+    // Every kind of reference survives mutation of its serialized form.
+    for r in [
+        Reference::chi_square(3).unwrap(),
+        Reference::new_row(20, 3).unwrap(),
+        Reference::in_sample(20, 3).unwrap(),
+        Reference::raw_mcd(40, 3, 22).unwrap(),
+        Reference::reweighted_mcd(3, 30.0).unwrap(),
+        Reference::pooled_group(9, 30, 3, 2).unwrap(),
+        Reference::phase_one_subgroups(10, 4, 2).unwrap(),
+        Reference::box_m_f(6.0, 900.0).unwrap(),
+        Reference::lognormal(0.1, 0.4).unwrap(),
+        Reference::scaled_beta(2.0, 0.5, 3.0).unwrap(),
+    ] {
+        survives_mutations(&r, |d: &Reference| {
+            let _ = (d.p_value(2.0), d.cutoff(0.01), d.cdf(1.0), d.law());
+        });
+    }
+    for bad in [
+        r#"{"kind":"new_row_f","n":3,"dim":3}"#,
+        r#"{"kind":"chi_square","dim":0}"#,
+        r#"{"kind":"scaled_f","scale":-1.0,"d1":2.0,"d2":2.0}"#,
+        r#"{"kind":"reweighted_mcd_f","dim":3,"wishart_dof":2.0}"#,
+    ] {
+        assert!(serde_json::from_str::<Reference>(bad).is_err(), "{bad}");
+    }
     let terms = decomposition::conditional_terms(chart.point_scatter(), &probe, 2).unwrap();
     survives_mutations(&terms, |_| {});
-    let diagnosis = chart.diagnose(&probe, PointOrigin::New, 2).unwrap();
+    let diagnosis = chart.diagnose(&probe, RowOrigin::New, 2).unwrap();
     survives_mutations(&diagnosis, |d| {
         let _ = (
             d.out_of_range(),
@@ -765,20 +786,6 @@ fn mutated_serialized_values_never_panic() {
             let _ = (e.statistic(), e.chi_square(), e.dim());
         });
     }
-    survives_mutations(&ChiSquared::new(4.5).unwrap(), |c| {
-        let _ = (c.sf(3.0), c.isf(0.01));
-    });
-    survives_mutations(&BetaDistribution::new(2.5, 7.0).unwrap(), |b| {
-        let _ = (b.sf(0.3), b.isf_with_complement(0.01));
-    });
-    survives_mutations(&FDistribution::new(3.0, 12.0).unwrap(), |f| {
-        let _ = (f.sf(3.0), f.isf(0.01));
-    });
-    for bad in [r#"{"dof":-1.0}"#, r#"{"dof":0.0}"#] {
-        assert!(serde_json::from_str::<ChiSquared>(bad).is_err());
-    }
-    assert!(serde_json::from_str::<BetaDistribution>(r#"{"a":1.0,"b":-2.0}"#).is_err());
-    assert!(serde_json::from_str::<FDistribution>(r#"{"d1":0.0,"d2":3.0}"#).is_err());
     survives_mutations(&Mardia::compute(rows).unwrap(), |m| {
         let _ = (
             m.skewness_p_value(),

@@ -7,7 +7,7 @@
 //! breast cancer, 569 × 30; Fisher's iris, 150 × 4).
 
 use crate::common::{fixture, matrix, matrix_rel, rel, vector};
-use mvdist::calibration::{BetaDistribution, ChiSquared, FDistribution, Reference};
+use mvdist::calibration::Reference;
 use mvdist::moments::{mean_and_covariance, weighted_mean_and_covariance, Divisor, GroupMoments};
 use mvdist::{distance, DistanceModel, Scatter};
 
@@ -115,30 +115,23 @@ fn iris_covariances_match_numpy() {
     assert!(matrix_rel(&wc0, &matrix(&f["weighted_cov_ddof0"])) < 1e-13);
 }
 
-fn tails_of(dist: &str, params: &[f64], x: f64) -> (f64, f64) {
+/// The law as a public [`Reference`] (unit scale for Beta and F).
+fn law_of(dist: &str, params: &[f64]) -> Reference {
     match dist {
-        "chi2" => ChiSquared::new(params[0]).unwrap().tails(x),
-        "beta" => BetaDistribution::new(params[0], params[1])
-            .unwrap()
-            .tails(x),
-        "f" => FDistribution::new(params[0], params[1]).unwrap().tails(x),
+        "chi2" => Reference::chi_square_statistic(params[0]).unwrap(),
+        "beta" => Reference::scaled_beta(1.0, params[0], params[1]).unwrap(),
+        "f" => Reference::scaled_f(1.0, params[0], params[1]).unwrap(),
         other => panic!("unknown distribution {other}"),
     }
 }
 
+fn tails_of(dist: &str, params: &[f64], x: f64) -> (f64, f64) {
+    let law = law_of(dist, params);
+    (law.cdf(x), law.p_value(x))
+}
+
 fn isf_of(dist: &str, params: &[f64], alpha: f64) -> f64 {
-    match dist {
-        "chi2" => ChiSquared::new(params[0]).unwrap().isf(alpha).unwrap(),
-        "beta" => BetaDistribution::new(params[0], params[1])
-            .unwrap()
-            .isf(alpha)
-            .unwrap(),
-        "f" => FDistribution::new(params[0], params[1])
-            .unwrap()
-            .isf(alpha)
-            .unwrap(),
-        other => panic!("unknown distribution {other}"),
-    }
+    law_of(dist, params).cutoff(alpha).unwrap()
 }
 
 #[test]
@@ -266,98 +259,10 @@ fn ill_conditioned_rotated_scatter_is_accurate_with_refinement() {
     eprintln!("plain Cholesky worst relative error at κ=1e12: {worst_plain:e}");
 }
 
-#[test]
-fn far_tails_with_moderate_shapes_match_mpmath_at_60_digits() {
-    // Source: mpmath at 60 digits (tests/reference/make_far_tail_fixtures.py),
-    // each tail integrated from its own edge. Shapes between 5 and 100,
-    // probabilities down to 1e-300: where a prefactor written around the
-    // centre of the law used to lose digits (F(20, 20) at x = 1e17 was 0,
-    // true 9.2e-166; χ²(21) below 1e-20 was 0, true 5.8e-221).
-    let f = fixture("far_tails.json");
-    let mut worst = (0.0f64, String::new());
-    for case in f["cases"].as_array().unwrap() {
-        let dist = case["dist"].as_str().unwrap();
-        let params = vector(&case["params"]);
-        let x = case["x"].as_f64().unwrap();
-        let (cdf, sf) = (case["cdf"].as_f64().unwrap(), case["sf"].as_f64().unwrap());
-        let (lo, up) = match dist {
-            "beta" => BetaDistribution::new(params[0], params[1])
-                .unwrap()
-                .tails_with_complement(x, case["y"].as_f64().unwrap()),
-            "f" => FDistribution::new(params[0], params[1]).unwrap().tails(x),
-            _ => ChiSquared::new(params[0]).unwrap().tails(x),
-        };
-        for (got, want, which) in [(lo, cdf, "cdf"), (up, sf, "sf")] {
-            // Each tail relative to itself where it is the smaller one; the
-            // larger is then 1 to rounding.
-            let e = if want <= 0.5 {
-                rel(got, want)
-            } else {
-                (got - want).abs()
-            };
-            if e > worst.0 {
-                worst = (
-                    e,
-                    format!("{dist} {params:?} x={x:e} {which}: {got:e} vs {want:e}"),
-                );
-            }
-        }
-    }
-    eprintln!(
-        "far tails: worst relative error {:e} ({})",
-        worst.0, worst.1
-    );
-    assert!(worst.0 < 1e-12, "worst {:e}: {}", worst.0, worst.1);
-}
-
-#[test]
-fn far_quantiles_match_mpmath_at_60_digits() {
-    // Source: as above; quantiles at 1e-300 (F(30, 30): 3.357e20, where
-    // the loss in the prefactor gave 3.6e16), and the Beta lower quantiles
-    // behind in-sample cutoffs near α → 1.
-    let f = fixture("far_tails.json");
-    let mut worst = (0.0f64, String::new());
-    for q in f["quantiles"].as_array().unwrap() {
-        let dist = q["dist"].as_str().unwrap();
-        let params = vector(&q["params"]);
-        let alpha = q["alpha"].as_f64().unwrap();
-        let (got, want) = match dist {
-            "f" => (
-                FDistribution::new(params[0], params[1])
-                    .unwrap()
-                    .isf(alpha)
-                    .unwrap(),
-                q["isf"].as_f64().unwrap(),
-            ),
-            "chi2" => (
-                ChiSquared::new(params[0]).unwrap().isf(alpha).unwrap(),
-                q["isf"].as_f64().unwrap(),
-            ),
-            _ => {
-                let (x, y) = BetaDistribution::new(params[0], params[1])
-                    .unwrap()
-                    .isf_with_complement(alpha)
-                    .unwrap();
-                match q.get("isf_complement") {
-                    Some(c) => (y, c.as_f64().unwrap()),
-                    None => (x, q["isf"].as_f64().unwrap()),
-                }
-            }
-        };
-        let e = rel(got, want);
-        if e > worst.0 {
-            worst = (
-                e,
-                format!("{dist} {params:?} alpha={alpha:e}: {got:e} vs {want:e}"),
-            );
-        }
-    }
-    eprintln!(
-        "far quantiles: worst relative error {:e} ({})",
-        worst.0, worst.1
-    );
-    assert!(worst.0 < 1e-11, "worst {:e}: {}", worst.0, worst.1);
-}
+// The far-tail and far-quantile checks against mpmath at 60 digits
+// (fixture far_tails.json) need the complement `1 − x` supplied exactly,
+// which only the internal distributions take: they are unit tests in
+// `src/distributions/mpmath_checks.rs`.
 
 #[test]
 fn in_sample_cutoffs_near_alpha_one_keep_their_digits() {
@@ -378,11 +283,7 @@ fn in_sample_cutoffs_near_alpha_one_keep_their_digits() {
     let max = 39.0 * 39.0 / 40.0;
     assert!(rel(cutoff, max * x) < 1e-11, "{cutoff} vs {}", max * x);
     // The same law as a Phase I control limit.
-    let chart_law = mvdist::control_chart::ScaledDistribution::Beta {
-        scale: max,
-        a: 0.5,
-        b: 19.0,
-    };
+    let chart_law = Reference::phase_one_individuals(40, 1).unwrap();
     assert!(rel(chart_law.cutoff(alpha).unwrap(), max * x) < 1e-11);
 }
 
@@ -394,31 +295,26 @@ fn quantiles_that_do_not_fit_in_a_double_are_typed_errors() {
     // come back as a subnormal number. χ²(0.01) at α close to 1: the
     // quantile is far below the smallest normal number.
     use mvdist::Error;
-    let f = FDistribution::new(3.0, 0.5).unwrap();
+    let f = Reference::scaled_f(1.0, 3.0, 0.5).unwrap();
     assert!(
-        matches!(f.isf(1e-100), Err(Error::NotRepresentable { .. })),
+        matches!(f.cutoff(1e-100), Err(Error::NotRepresentable { .. })),
         "{:?}",
-        f.isf(1e-100)
+        f.cutoff(1e-100)
     );
     // Its tail is still computed where d1·x overflows, not cut to 0.
-    let far = f.sf(1e308);
+    let far = f.p_value(1e308);
     assert!(far > 0.0 && far < 1e-75, "{far}");
-    let b = BetaDistribution::new(0.25, 0.25).unwrap();
+    let b = Reference::scaled_beta(1.0, 0.25, 0.25).unwrap();
     assert!(matches!(
-        b.isf_with_complement(1e-300),
+        b.cutoff(1e-300),
         Err(Error::NotRepresentable { .. })
     ));
-    assert!(matches!(b.isf(1e-300), Err(Error::NotRepresentable { .. })));
-    let c = ChiSquared::new(0.01).unwrap();
+    let c = Reference::chi_square_statistic(0.01).unwrap();
     assert!(
-        matches!(c.isf(1.0 - 1e-12), Err(Error::NotRepresentable { .. })),
+        matches!(c.cutoff(1.0 - 1e-12), Err(Error::NotRepresentable { .. })),
         "{:?}",
-        c.isf(1.0 - 1e-12)
+        c.cutoff(1.0 - 1e-12)
     );
     // And what does fit still works, far out.
-    assert!(FDistribution::new(3.0, 0.5)
-        .unwrap()
-        .isf(1e-50)
-        .unwrap()
-        .is_finite());
+    assert!(f.cutoff(1e-50).unwrap().is_finite());
 }

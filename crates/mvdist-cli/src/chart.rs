@@ -8,7 +8,7 @@ use crate::table::{read_table, read_table_named, ColumnChoice};
 use crate::CliError;
 use mvdist::control_chart::{
     chart_svg, ChartPoint, ControlChart, FalseAlarmRate, PhaseOneSettings, PhaseOneStart,
-    PointOrigin, PointStatus, SignalRemoval,
+    PointStatus, SignalRemoval,
 };
 use mvdist::RowOrigin;
 use std::io::Write;
@@ -295,11 +295,11 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     println!(
         "  estimate from {} points; Phase I UCL = {:.4}; {removed} removed in {} round(s){}; {remaining} signal(s) among the points kept",
         chart.in_estimate(),
-        chart.upper_limit(PointOrigin::InEstimate)?,
+        chart.upper_limit(RowOrigin::InSample)?,
         chart.rounds().len().saturating_sub(1),
         if chart.reached_round_cap() { " (stopped at --max-rounds with signals left)" } else { "" }
     );
-    let phase_two_ucl = chart.upper_limit(PointOrigin::New)?;
+    let phase_two_ucl = chart.upper_limit(RowOrigin::New)?;
     if args.new.is_some() {
         let signals = new_points.iter().filter(|p| p.signal).count();
         println!(

@@ -3,9 +3,10 @@
 use crate::fit::explain_fit_error;
 use crate::table::{read_table, read_table_named, ColumnChoice};
 use crate::CliError;
+use mvdist::classification::Rule;
 use mvdist::mean_tests::{
-    one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter,
-    ClassificationRule, MeanComparison, MeanInterval, MeanTestKind, ScatterEquality,
+    one_sample, paired, scatter_equality, two_sample, two_sample_unequal_scatter, MeanComparison,
+    MeanInterval, MeanTestKind, ScatterEquality,
 };
 use mvdist::Error;
 use serde::Serialize;
@@ -274,19 +275,21 @@ fn print_table(
     }
     println!("  estimate: {estimate}");
     if let Some(m) = scatter {
-        let rule = m
-            .suggested_rule(0.001)
-            .unwrap_or(ClassificationRule::Linear);
+        let rule = m.suggested_rule(0.001).unwrap_or(Rule::Linear);
         println!(
             "\nScatter equality (Box's M): M = {:.4}, χ² = {:.4} on {} dof, p = {:.3e}{}",
             m.statistic(),
-            m.chi_square().statistic,
-            trim(m.chi_square().dof),
+            m.chi_square().value(),
+            m.chi_square()
+                .reference()
+                .degrees_of_freedom()
+                .first()
+                .map_or_else(|| "-".to_string(), |&d| trim(d)),
             m.p_value(),
             match rule {
-                ClassificationRule::Quadratic if test.kind() == MeanTestKind::TwoSamplePooled =>
+                Rule::Quadratic if test.kind() == MeanTestKind::TwoSamplePooled =>
                     "; the scatters differ at 0.001: consider --unequal-scatter",
-                ClassificationRule::Quadratic => "; the scatters differ at 0.001",
+                Rule::Quadratic => "; the scatters differ at 0.001",
                 _ => "; equal scatters are plausible at 0.001",
             }
         );

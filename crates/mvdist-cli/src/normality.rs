@@ -71,16 +71,21 @@ fn render(report: &NormalityReport, names: &[String], path: &std::path::Path) ->
     for outcome in &report.tests {
         match outcome {
             TestOutcome::Computed(s) => {
-                let df = s.degrees_of_freedom.map_or_else(
-                    || "-".to_string(),
-                    |d| {
-                        if d.fract() == 0.0 {
-                            format!("{d:.0}")
-                        } else {
-                            format!("{d:.2}")
-                        }
-                    },
-                );
+                let df = s
+                    .reference
+                    .degrees_of_freedom()
+                    .first()
+                    .copied()
+                    .map_or_else(
+                        || "-".to_string(),
+                        |d| {
+                            if d.fract() == 0.0 {
+                                format!("{d:.0}")
+                            } else {
+                                format!("{d:.2}")
+                            }
+                        },
+                    );
                 let _ = writeln!(
                     out,
                     "{:<32} {:>12} {:>8} {:>10}  {}",

@@ -102,17 +102,6 @@ fn for_each_row(
     Ok(())
 }
 
-/// The reference distribution in words, for the summary line.
-fn describe(reference: &Reference) -> &'static str {
-    match reference {
-        Reference::ChiSquare { .. } => "chi-square",
-        Reference::InSampleBeta { .. } => "in-sample Beta",
-        Reference::NewRowF { .. } => "new-row F",
-        Reference::RawMcdF { .. } => "Hardin-Rocke F (raw MCD)",
-        Reference::ReweightedMcdF { .. } => "simulated Wishart F (reweighted MCD)",
-    }
-}
-
 pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     if !(args.alpha > 0.0 && args.alpha < 1.0) {
         return Err(CliError(format!(
@@ -234,7 +223,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         "scored {} rows against {} ({} reference, alpha {}, adjustment {}): {flagged} flagged; wrote {}",
         row - incomplete,
         args.model.display(),
-        describe(&reference),
+        reference.kind().name(),
         args.alpha,
         clap::ValueEnum::to_possible_value(&args.adjust).map_or_else(String::new, |v| v.get_name().to_string()),
         args.out.display()
