@@ -66,7 +66,7 @@ fn bench_predict(c: &mut Criterion) {
     for (group, options) in [
         (
             "classify_predict",
-            PredictOptions::default().without_typicality(),
+            PredictOptions::default().with_typicality(false),
         ),
         ("classify_predict_typicality", PredictOptions::default()),
     ] {

@@ -14,7 +14,7 @@
 //! ```
 
 use criterion::{black_box, criterion_group, criterion_main, BenchmarkId, Criterion};
-use mvdist::robust::{minimum_covariance_determinant, McdSettings};
+use mvdist::robust::{minimum_covariance_determinant, McdOptions};
 use mvdist::shrinkage::{ledoit_wolf, oas, OasFormula};
 use ndarray::Array2;
 use std::io::Write;
@@ -93,7 +93,7 @@ fn bench_mcd(c: &mut Criterion) {
     for &(n, p) in &MCD_SIZES {
         let x = contaminated(n, p, 20240601 + p as u64);
         save(&x);
-        let settings = McdSettings::default().with_seed(1);
+        let settings = McdOptions::default().with_seed(1);
         let fit = minimum_covariance_determinant(x.view(), &settings).expect("mcd");
         objectives.push(format!(
             "\"{n}x{p}\": {{\"subset_size\": {}, \"raw_log_det\": {}}}",

@@ -18,7 +18,7 @@
 
 use mvdist::calibration::Reference;
 use mvdist::control_chart::{
-    chart_svg, ControlChart, FalseAlarmRate, PhaseOneSettings, PointStatus, SignalRemoval,
+    chart_svg, ControlChart, FalseAlarmRate, PhaseOneOptions, PointStatus, SignalRemoval,
 };
 use mvdist::{Adjustment, ContributionOrder, DistanceModel, RowOrigin};
 use ndarray::{Array2, Axis};
@@ -199,11 +199,9 @@ fn t2_chart_section(
     new: &Array2<f64>,
     svg: &Path,
 ) -> Result<(), Box<dyn Error>> {
-    let settings = PhaseOneSettings {
-        false_alarm: FalseAlarmRate::from_average_run_length(370.0)?,
-        removal: SignalRemoval::RefitUntilClean { max_rounds: 10 },
-        ..PhaseOneSettings::default()
-    };
+    let settings = PhaseOneOptions::default()
+        .with_false_alarm(FalseAlarmRate::from_average_run_length(370.0)?)
+        .with_removal(SignalRemoval::RefitUntilClean { max_rounds: 10 });
     let chart = ControlChart::individuals(reference.view(), &settings)?;
     let removed: Vec<usize> = chart
         .phase_one_points()
@@ -213,7 +211,7 @@ fn t2_chart_section(
         .collect();
     println!(
         "\n== 4. T² control chart (in-control ARL 370, α = {:.5} per batch)",
-        settings.false_alarm.alpha()
+        settings.false_alarm().alpha()
     );
     println!(
         "   Phase I: {} rounds, reference batches removed: {removed:?}; estimate from {} batches",

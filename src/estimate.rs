@@ -1,6 +1,6 @@
 //! The estimation layer's common output: an [`Estimate`] (location,
 //! scatter, sample size and how they were obtained) that every estimator
-//! returns and [`crate::DistanceModel`] consumes, and the [`Estimator`]
+//! returns and [`crate::DistanceModel`] consumes, and the [`FitMethod`]
 //! record of how it was made. The estimator-specific kinds it names
 //! ([`McdStage`], [`ShrinkageTarget`], [`OasFormula`]) live here too, so
 //! that this module depends on no estimator and the estimators depend on no
@@ -10,11 +10,14 @@ use crate::moments::Divisor;
 use crate::scatter::Scatter;
 use serde::{Deserialize, Serialize};
 
-/// How a model's location and scatter were estimated.
+/// How a model's location and scatter were fitted: the method and the
+/// values it settled on (a shrinkage intensity, an MCD subset size and
+/// seed). [`crate::DistanceModel::reference`] chooses the reference law
+/// from it, and model files record it (under the key `estimator`).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 #[non_exhaustive]
-pub enum Estimator {
+pub enum FitMethod {
     /// Sample mean and covariance.
     Classical {
         /// The covariance denominator.
@@ -125,16 +128,16 @@ pub enum OasFormula {
 }
 
 /// One fitted estimate: location `μ`, scatter `Σ`, the number `n` of rows
-/// behind it, and the [`Estimator`] that made it. Estimators return it;
+/// behind it, and the [`FitMethod`] that made it. Estimators return it;
 /// [`crate::DistanceModel::from_estimate`] turns it into a model.
 ///
 /// # Example
 /// ```
-/// use mvdist::{shrinkage::ledoit_wolf, DistanceModel, Estimator};
+/// use mvdist::{shrinkage::ledoit_wolf, DistanceModel, FitMethod};
 /// use ndarray::array;
 /// let rows = array![[1.0, 2.0], [2.0, 2.5], [4.0, 3.0], [3.0, 5.0], [0.0, 1.0]];
 /// let estimate = ledoit_wolf(rows.view())?.estimate();
-/// assert!(matches!(estimate.estimator(), Estimator::LedoitWolf { .. }));
+/// assert!(matches!(estimate.fit_method(), FitMethod::LedoitWolf { .. }));
 /// let model = DistanceModel::from_estimate(estimate)?;
 /// assert_eq!(model.sample_size(), 5);
 /// # Ok::<(), mvdist::Error>(())
@@ -144,7 +147,7 @@ pub struct Estimate {
     pub(crate) location: Vec<f64>,
     pub(crate) scatter: Scatter,
     pub(crate) sample_size: usize,
-    pub(crate) estimator: Estimator,
+    pub(crate) estimator: FitMethod,
 }
 
 impl Estimate {
@@ -164,12 +167,12 @@ impl Estimate {
     }
 
     /// How the estimate was made.
-    pub fn estimator(&self) -> &Estimator {
+    pub fn fit_method(&self) -> &FitMethod {
         &self.estimator
     }
 
     /// Location, scatter, sample size and estimator, by value.
-    pub fn into_parts(self) -> (Vec<f64>, Scatter, usize, Estimator) {
+    pub fn into_parts(self) -> (Vec<f64>, Scatter, usize, FitMethod) {
         (
             self.location,
             self.scatter,

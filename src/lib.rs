@@ -111,7 +111,7 @@ pub use ndarray;
 
 pub use calibration::{Adjustment, Reference, RowOrigin};
 pub use error::{Error, Result};
-pub use estimate::{Estimate, Estimator};
+pub use estimate::{Estimate, FitMethod};
 pub use explain::{ContributionOrder, Contributions};
 pub use model::{DistanceModel, RowScore, Scores};
 pub use moments::{Divisor, MomentAccumulator};

@@ -3,11 +3,11 @@
 use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
 use crate::data::{check_columns, check_row, check_row_finite, rows_from_slice};
 use crate::error::{Error, Result};
-use crate::estimate::{Estimate, Estimator, McdStage, OasFormula, ShrinkageTarget};
+use crate::estimate::{Estimate, FitMethod, McdStage, OasFormula, ShrinkageTarget};
 use crate::explain::{contributions, ContributionOrder, Contributions};
 use crate::kernels::distance as kernel;
 use crate::moments::{Divisor, MomentAccumulator};
-use crate::robust::{McdFit, McdSettings};
+use crate::robust::{McdFit, McdOptions};
 use crate::scatter::Scatter;
 use crate::shrinkage::ShrinkageFit;
 use crate::whitening::{Whitener, WhiteningKind};
@@ -78,7 +78,7 @@ pub struct DistanceModel {
     location: Vec<f64>,
     scatter: Scatter,
     sample_size: usize,
-    estimator: Estimator,
+    estimator: FitMethod,
 }
 
 #[derive(Serialize, Deserialize)]
@@ -86,7 +86,7 @@ struct ModelData {
     n: usize,
     location: Vec<f64>,
     scatter: Scatter,
-    estimator: Estimator,
+    estimator: FitMethod,
 }
 
 impl TryFrom<ModelData> for DistanceModel {
@@ -253,7 +253,7 @@ impl DistanceModel {
             acc.mean().to_vec(),
             scatter,
             positive,
-            Estimator::Weighted { divisor },
+            FitMethod::Weighted { divisor },
         )
     }
 
@@ -286,11 +286,11 @@ impl DistanceModel {
     ///
     /// # Example
     /// ```
-    /// use mvdist::{shrinkage::OasFormula, DistanceModel, Estimator};
+    /// use mvdist::{shrinkage::OasFormula, DistanceModel, FitMethod};
     /// use ndarray::array;
     /// let rows = array![[1.0, 2.0], [2.0, 2.5], [4.0, 3.0], [3.0, 5.0], [0.0, 1.0]];
     /// let model = DistanceModel::fit_oas(rows.view(), OasFormula::Published)?;
-    /// assert!(matches!(model.estimator(), Estimator::Oas { .. }));
+    /// assert!(matches!(model.fit_method(), FitMethod::Oas { .. }));
     /// # Ok::<(), mvdist::Error>(())
     /// ```
     pub fn fit_oas(rows: ArrayView2<'_, f64>, formula: OasFormula) -> Result<Self> {
@@ -331,19 +331,19 @@ impl DistanceModel {
     ///
     /// # Example
     /// ```
-    /// use mvdist::{robust::McdSettings, DistanceModel, RowOrigin};
+    /// use mvdist::{robust::McdOptions, DistanceModel, RowOrigin};
     /// use ndarray::Array2;
     /// // 40 rows on a tilted ellipse and 6 gross outliers.
     /// let rows = Array2::from_shape_fn((46, 2), |(i, j)| {
     ///     let t = i as f64 * 0.7;
     ///     if i >= 40 { 30.0 + i as f64 } else if j == 0 { t.cos() * 2.0 } else { t.sin() + 0.5 * t.cos() }
     /// });
-    /// let model = DistanceModel::fit_mcd(rows.view(), &McdSettings::default().with_seed(1))?;
+    /// let model = DistanceModel::fit_mcd(rows.view(), &McdOptions::default().with_seed(1))?;
     /// let cutoff = model.cutoff(0.025, RowOrigin::InSample)?;
     /// assert!(model.squared_distance(&[70.0, 70.0])? > cutoff);
     /// # Ok::<(), mvdist::Error>(())
     /// ```
-    pub fn fit_mcd(rows: ArrayView2<'_, f64>, settings: &McdSettings) -> Result<Self> {
+    pub fn fit_mcd(rows: ArrayView2<'_, f64>, settings: &McdOptions) -> Result<Self> {
         crate::robust::minimum_covariance_determinant(rows, settings)?.model()
     }
 
@@ -360,7 +360,7 @@ impl DistanceModel {
             acc.mean().to_vec(),
             scatter,
             acc.count() as usize,
-            Estimator::Classical { divisor },
+            FitMethod::Classical { divisor },
         )
     }
 
@@ -377,7 +377,7 @@ impl DistanceModel {
         location: Vec<f64>,
         scatter: Scatter,
         sample_size: usize,
-        estimator: Estimator,
+        estimator: FitMethod,
     ) -> Result<Self> {
         if location.len() != scatter.dim() {
             return Err(Error::ShapeMismatch {
@@ -390,7 +390,7 @@ impl DistanceModel {
         if sample_size == 0 {
             return Err(Error::invalid("sample size", "must be at least 1"));
         }
-        if let Estimator::Mcd {
+        if let FitMethod::Mcd {
             wishart_dof: Some(m),
             ..
         } = estimator
@@ -435,7 +435,7 @@ impl DistanceModel {
     }
 
     /// How the model was estimated.
-    pub fn estimator(&self) -> &Estimator {
+    pub fn fit_method(&self) -> &FitMethod {
         &self.estimator
     }
 
@@ -603,7 +603,7 @@ impl DistanceModel {
         match (&self.estimator, origin) {
             (_, RowOrigin::KnownParameters) => Reference::chi_square(self.dim()),
             (
-                Estimator::Mcd {
+                FitMethod::Mcd {
                     stage: McdStage::Reweighted,
                     wishart_dof,
                     ..
@@ -614,7 +614,7 @@ impl DistanceModel {
                 None => Reference::chi_square(self.dim()),
             },
             (
-                Estimator::Mcd {
+                FitMethod::Mcd {
                     stage: McdStage::Raw,
                     subset_size,
                     ..
@@ -622,7 +622,7 @@ impl DistanceModel {
                 _,
             ) => Reference::raw_mcd(self.sample_size, self.dim(), *subset_size),
             (
-                Estimator::Weighted {
+                FitMethod::Weighted {
                     divisor: Divisor::MaximumLikelihood,
                 },
                 _,
@@ -719,10 +719,10 @@ impl DistanceModel {
 /// The divisor of the covariance behind a model's scatter, as the F and
 /// Beta references need it: the shrinkage estimates start from the
 /// maximum-likelihood covariance (and equal it at intensity 0).
-fn reference_divisor(estimator: &Estimator) -> Divisor {
+fn reference_divisor(estimator: &FitMethod) -> Divisor {
     match estimator {
-        Estimator::Classical { divisor } | Estimator::Weighted { divisor } => *divisor,
-        Estimator::LedoitWolf { .. } | Estimator::Oas { .. } | Estimator::Shrunk { .. } => {
+        FitMethod::Classical { divisor } | FitMethod::Weighted { divisor } => *divisor,
+        FitMethod::LedoitWolf { .. } | FitMethod::Oas { .. } | FitMethod::Shrunk { .. } => {
             Divisor::MaximumLikelihood
         }
         _ => Divisor::Unbiased,

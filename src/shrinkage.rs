@@ -90,7 +90,7 @@
 //! [`RowOrigin::KnownParameters`]: crate::RowOrigin::KnownParameters
 
 use crate::error::{Error, Result};
-use crate::estimate::{Estimate, Estimator};
+use crate::estimate::{Estimate, FitMethod};
 pub use crate::estimate::{OasFormula, ShrinkageTarget};
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
@@ -119,7 +119,7 @@ pub struct ShrinkageFit {
     intensity: f64,
     target: ShrinkageTarget,
     sample_size: usize,
-    estimator: Estimator,
+    estimator: FitMethod,
 }
 
 impl ShrinkageFit {
@@ -149,7 +149,7 @@ impl ShrinkageFit {
     }
 
     /// How the estimate was made (as recorded in a model).
-    pub fn estimator(&self) -> &Estimator {
+    pub fn fit_method(&self) -> &FitMethod {
         &self.estimator
     }
 
@@ -245,7 +245,7 @@ impl SampleMoments {
         self,
         intensity: f64,
         target: ShrinkageTarget,
-        estimator: Estimator,
+        estimator: FitMethod,
     ) -> Result<ShrinkageFit> {
         let scatter = self.shrunk(intensity, target)?;
         Ok(ShrinkageFit {
@@ -326,7 +326,7 @@ pub fn ledoit_wolf(rows: ArrayView2<'_, f64>) -> Result<ShrinkageFit> {
     m.fit(
         intensity,
         ShrinkageTarget::ScaledIdentity,
-        Estimator::LedoitWolf { intensity },
+        FitMethod::LedoitWolf { intensity },
     )
 }
 
@@ -369,7 +369,7 @@ pub fn oas(rows: ArrayView2<'_, f64>, formula: OasFormula) -> Result<ShrinkageFi
     m.fit(
         intensity,
         ShrinkageTarget::ScaledIdentity,
-        Estimator::Oas { intensity, formula },
+        FitMethod::Oas { intensity, formula },
     )
 }
 
@@ -405,5 +405,5 @@ pub fn shrink(
         ));
     }
     let m = SampleMoments::new(rows)?;
-    m.fit(intensity, target, Estimator::Shrunk { intensity, target })
+    m.fit(intensity, target, FitMethod::Shrunk { intensity, target })
 }

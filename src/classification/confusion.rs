@@ -150,7 +150,7 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
         let mut out = super::Predictions::new();
         self.predict_into(
             rows,
-            &super::PredictOptions::default().without_typicality(),
+            &super::PredictOptions::default().with_typicality(false),
             &mut out,
         )?;
         ConfusionMatrix::from_groups(&actual, out.assigned(), self.group_count())

@@ -56,70 +56,66 @@ pub enum Priors<L> {
     Given(Vec<(L, f64)>),
 }
 
-/// How each group's scatter is estimated from its rows.
+/// The choices a classifier is fitted with. Setters cannot fail and state
+/// their default; [`Classifier::fit`] checks the values (priors against
+/// the labels) once.
 ///
-/// Only the classical estimate exists now; the enum leaves room for others
-/// (a robust or shrinkage estimate) without changing the classifier's API.
-/// Leave-one-out error estimates use closed-form downdates that hold for
-/// the classical estimate.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Hash)]
-#[non_exhaustive]
-pub enum GroupScatterEstimator {
-    /// Sample centroids and co-moment matrices, with the unbiased divisors
-    /// `n − G` (pooled) and `n_g − 1` (per group).
-    #[default]
-    Classical,
-}
-
-/// The choices a classifier is fitted with.
+/// Group scatters are the classical estimates (sample centroids and
+/// co-moment matrices); leave-one-out error estimates rely on the
+/// closed-form downdates that hold for them.
 ///
 /// # Example
 /// ```
 /// use mvdist::classification::{ClassifierOptions, Priors, Rule};
 /// let options = ClassifierOptions::new(Rule::Quadratic).with_priors(Priors::<String>::Equal);
-/// assert_eq!(options.rule, Rule::Quadratic);
+/// assert_eq!(options.rule(), Rule::Quadratic);
 /// ```
 #[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
 pub struct ClassifierOptions<L> {
-    /// Linear (pooled scatter) or quadratic (own scatters).
-    pub rule: Rule,
-    /// Prior probabilities of the groups (default: proportional).
-    pub priors: Priors<L>,
-    /// How group scatters are estimated (default: classical).
-    pub estimator: GroupScatterEstimator,
-    /// The divisor of the scatters (default: unbiased, `n − G` pooled and
-    /// `n_g − 1` per group; maximum likelihood divides by `n` and `n_g`).
-    pub divisor: Divisor,
+    rule: Rule,
+    priors: Priors<L>,
+    divisor: Divisor,
 }
 
 impl<L> ClassifierOptions<L> {
-    /// Options for `rule`, with proportional priors and the classical
-    /// estimator.
+    /// Options for `rule` (linear: pooled scatter; quadratic: one scatter
+    /// per group), with proportional priors and the unbiased divisor.
     pub fn new(rule: Rule) -> Self {
         ClassifierOptions {
             rule,
             priors: Priors::Proportional,
-            estimator: GroupScatterEstimator::Classical,
             divisor: Divisor::Unbiased,
         }
     }
 
-    /// The same options with another scatter divisor.
+    /// The divisor of the scatters (default: unbiased, `n − G` pooled and
+    /// `n_g − 1` per group; maximum likelihood divides by `n` and `n_g`).
     pub fn with_divisor(mut self, divisor: Divisor) -> Self {
         self.divisor = divisor;
         self
     }
 
-    /// The same options with other priors.
+    /// Prior probabilities of the groups (default:
+    /// [`Priors::Proportional`]).
     pub fn with_priors(mut self, priors: Priors<L>) -> Self {
         self.priors = priors;
         self
     }
 
-    /// The same options with another group scatter estimator.
-    pub fn with_estimator(mut self, estimator: GroupScatterEstimator) -> Self {
-        self.estimator = estimator;
-        self
+    /// The rule.
+    pub fn rule(&self) -> Rule {
+        self.rule
+    }
+
+    /// The priors.
+    pub fn priors(&self) -> &Priors<L> {
+        &self.priors
+    }
+
+    /// The divisor.
+    pub fn divisor(&self) -> Divisor {
+        self.divisor
     }
 }
 
@@ -174,7 +170,6 @@ pub struct Classifier<L> {
     pub(crate) counts: Vec<usize>,
     pub(crate) dim: usize,
     pub(crate) rule: Rule,
-    pub(crate) estimator: GroupScatterEstimator,
     pub(crate) divisor: Divisor,
     pub(crate) prior_kind: PriorKind,
     pub(crate) priors: Vec<f64>,
@@ -260,12 +255,9 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
             .chunks(p)
             .flat_map(|mu| mu.iter().zip(&centre).map(|(m, c)| m - c))
             .collect();
-        let estimator = options.estimator;
-        let (pooled, group_scatters) = match (estimator, options.rule) {
-            (GroupScatterEstimator::Classical, Rule::Linear) => {
-                (Some(moments.pooled_scatter(options.divisor)?), Vec::new())
-            }
-            (GroupScatterEstimator::Classical, Rule::Quadratic) => {
+        let (pooled, group_scatters) = match options.rule {
+            Rule::Linear => (Some(moments.pooled_scatter(options.divisor)?), Vec::new()),
+            Rule::Quadratic => {
                 let mut scatters = Vec::with_capacity(g_count);
                 for (g, a) in groups.iter().enumerate() {
                     if counts[g] <= p {
@@ -326,7 +318,6 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
             counts,
             dim: p,
             rule: options.rule,
-            estimator,
             divisor: options.divisor,
             prior_kind,
             priors,
@@ -389,11 +380,6 @@ impl<L> Classifier<L> {
     /// The divisor of the scatters.
     pub fn divisor(&self) -> Divisor {
         self.divisor
-    }
-
-    /// The group scatter estimator.
-    pub fn estimator(&self) -> GroupScatterEstimator {
-        self.estimator
     }
 
     /// The prior probability of each group (they sum to 1).

@@ -36,9 +36,7 @@
 //! one prediction pass plus `O(G²)` per row, instead of `n` refits.
 
 use super::confusion::ConfusionMatrix;
-use super::fit::{
-    divisor_of, Classifier, ClassifierOptions, GroupScatterEstimator, PriorKind, Rule,
-};
+use super::fit::{divisor_of, Classifier, ClassifierOptions, PriorKind, Rule};
 use super::predict::{PredictOptions, Predictions};
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
@@ -93,9 +91,6 @@ impl LeaveOneOut {
         options: &ClassifierOptions<L>,
     ) -> Result<Self> {
         let c = Classifier::fit(rows, labels, options)?;
-        match c.estimator {
-            GroupScatterEstimator::Classical => {}
-        }
         let actual = c.groups_of(labels)?;
         let (n, p, g_count) = (rows.nrows(), c.dim, c.group_count());
         let needed = match c.rule {
@@ -119,7 +114,7 @@ impl LeaveOneOut {
         let mut full = Predictions::new();
         c.predict_into(
             rows,
-            &PredictOptions::default().without_typicality(),
+            &PredictOptions::default().with_typicality(false),
             &mut full,
         )?;
         let full_d2 = full.squared_distances();

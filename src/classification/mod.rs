@@ -65,6 +65,6 @@ mod predict;
 
 pub use confusion::ConfusionMatrix;
 pub use discriminant::DiscriminantDirections;
-pub use fit::{Classifier, ClassifierOptions, GroupScatterEstimator, Priors, Rule};
+pub use fit::{Classifier, ClassifierOptions, Priors, Rule};
 pub use leave_one_out::LeaveOneOut;
 pub use predict::{PredictOptions, Prediction, Predictions};

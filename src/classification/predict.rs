@@ -13,25 +13,21 @@ use rayon::prelude::*;
 /// Rows per parallel task.
 const TASK_ROWS: usize = 1024;
 
-/// What to compute besides groups, distances and posteriors.
+/// What to compute besides groups, distances and posteriors. Setters
+/// cannot fail; prediction checks the values once.
 ///
 /// # Example
 /// ```
 /// use mvdist::classification::PredictOptions;
 /// let options = PredictOptions::default().with_no_group_below(0.001);
-/// assert!(options.typicality);
-/// assert_eq!(options.no_group_below, Some(0.001));
+/// assert!(options.typicality());
+/// assert_eq!(options.no_group_below(), Some(0.001));
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq)]
+#[non_exhaustive]
 pub struct PredictOptions {
-    /// Compute the typicality of each row under its assigned group (one
-    /// incomplete beta function per row; default `true`).
-    pub typicality: bool,
-    /// Mark a row as "no group" when it is atypical of every group: its
-    /// squared distance to each centroid is beyond that group's cutoff at
-    /// this level, i.e. its best typicality is below the level (default:
-    /// `None`, never).
-    pub no_group_below: Option<f64>,
+    typicality: bool,
+    no_group_below: Option<f64>,
 }
 
 impl Default for PredictOptions {
@@ -44,16 +40,31 @@ impl Default for PredictOptions {
 }
 
 impl PredictOptions {
-    /// The same options with "no group" below `level`.
+    /// Marks a row as "no group" when it is atypical of every group: its
+    /// squared distance to each centroid is beyond that group's cutoff at
+    /// `level`, i.e. its best typicality is below `level` (default: never;
+    /// prediction rejects a level outside (0, 1)).
     pub fn with_no_group_below(mut self, level: f64) -> Self {
         self.no_group_below = Some(level);
         self
     }
 
-    /// The same options without typicality values (they are NaN).
-    pub fn without_typicality(mut self) -> Self {
-        self.typicality = false;
+    /// Whether to compute the typicality of each row under its assigned
+    /// group (one incomplete beta function per row; default `true`; without
+    /// it the values are NaN).
+    pub fn with_typicality(mut self, typicality: bool) -> Self {
+        self.typicality = typicality;
         self
+    }
+
+    /// Whether typicality values are computed.
+    pub fn typicality(&self) -> bool {
+        self.typicality
+    }
+
+    /// The "no group" level, if any.
+    pub fn no_group_below(&self) -> Option<f64> {
+        self.no_group_below
     }
 }
 

@@ -3,7 +3,7 @@
 
 use super::diagnosis::{diagnose_centred, rated_terms_along};
 use super::{
-    ChartPoint, ControlLimit, FalseAlarmRate, PhaseOneRound, PhaseOneSettings, PhaseOneStart,
+    ChartPoint, ControlLimit, FalseAlarmRate, PhaseOneOptions, PhaseOneRound, PhaseOneStart,
     PointStatus, RatedTerm, SignalDiagnosis, SignalRemoval,
 };
 use crate::calibration::RowOrigin;
@@ -48,18 +48,16 @@ pub enum ChartDesign {
 ///
 /// # Example
 /// ```
-/// use mvdist::control_chart::{ControlChart, FalseAlarmRate, PhaseOneSettings, SignalRemoval};
+/// use mvdist::control_chart::{ControlChart, FalseAlarmRate, PhaseOneOptions, SignalRemoval};
 /// use ndarray::array;
 ///
 /// let history = array![
 ///     [10.1, 4.9], [9.8, 5.2], [10.3, 5.1], [9.9, 4.8], [10.0, 5.0], [10.2, 5.3],
 ///     [9.7, 4.9], [10.1, 5.0], [9.9, 5.1], [10.0, 4.7], [10.4, 5.2], [9.6, 4.8],
 /// ];
-/// let settings = PhaseOneSettings {
-///     false_alarm: FalseAlarmRate::per_point(0.01)?,
-///     removal: SignalRemoval::RefitUntilClean { max_rounds: 5 },
-///     ..PhaseOneSettings::default()
-/// };
+/// let settings = PhaseOneOptions::default()
+///     .with_false_alarm(FalseAlarmRate::per_point(0.01)?)
+///     .with_removal(SignalRemoval::RefitUntilClean { max_rounds: 5 });
 /// let chart = ControlChart::individuals(history.view(), &settings)?;
 /// assert!(chart.phase_one_points().iter().all(|p| !p.signal));
 ///
@@ -256,7 +254,7 @@ impl ControlChart {
     /// covariance; [`Error::ShapeMismatch`] for a start model with other
     /// columns; [`Error::InvalidParameter`] for a conditioning depth that
     /// gives too many terms.
-    pub fn individuals(rows: ArrayView2<'_, f64>, settings: &PhaseOneSettings) -> Result<Self> {
+    pub fn individuals(rows: ArrayView2<'_, f64>, settings: &PhaseOneOptions) -> Result<Self> {
         let (n, p) = rows.dim();
         if p == 0 {
             return Err(Error::Empty { what: "columns" });
@@ -287,9 +285,9 @@ impl ControlChart {
     pub fn subgroups(
         rows: ArrayView2<'_, f64>,
         size: usize,
-        settings: &PhaseOneSettings,
+        settings: &PhaseOneOptions,
     ) -> Result<Self> {
-        if settings.start != PhaseOneStart::AllRows {
+        if *settings.start() != PhaseOneStart::AllRows {
             return Err(Error::invalid(
                 "start",
                 "screening with a supplied model applies to individual observations only",
@@ -304,11 +302,11 @@ impl ControlChart {
         Self::phase_one(&data, settings)
     }
 
-    fn phase_one(data: &PhaseOneData<'_>, settings: &PhaseOneSettings) -> Result<Self> {
-        let rate = settings.false_alarm;
+    fn phase_one(data: &PhaseOneData<'_>, settings: &PhaseOneOptions) -> Result<Self> {
+        let rate = settings.false_alarm();
         let (m, p) = data.points.dim();
         let mut status = vec![PointStatus::InEstimate; m];
-        if let PhaseOneStart::ScreenWith { model, origin } = &settings.start {
+        if let PhaseOneStart::ScreenWith { model, origin } = settings.start() {
             if model.dim() != p {
                 return Err(Error::ShapeMismatch {
                     what: "start model variables (the data's columns)",
@@ -327,7 +325,7 @@ impl ControlChart {
                 }
             }
         }
-        let max_rounds = match settings.removal {
+        let max_rounds = match settings.removal() {
             SignalRemoval::Keep => 0,
             SignalRemoval::RefitUntilClean { max_rounds } => max_rounds,
         };
@@ -357,7 +355,7 @@ impl ControlChart {
                 upper_limit: ucl,
                 signals: signals.clone(),
             });
-            if signals.is_empty() || settings.removal == SignalRemoval::Keep {
+            if signals.is_empty() || settings.removal() == SignalRemoval::Keep {
                 break (location, scatter, kept.len());
             }
             if rounds.len() > max_rounds {
@@ -380,7 +378,7 @@ impl ControlChart {
             point_scatter,
             in_estimate: kept,
             false_alarm: rate,
-            diagnosis_depth: settings.diagnosis_depth,
+            diagnosis_depth: settings.diagnosis_depth(),
             points: Vec::new(),
             rounds,
             reached_round_cap,

@@ -109,7 +109,7 @@ impl SignalDiagnosis {
     ///
     /// # Example
     /// ```
-    /// use mvdist::control_chart::{ControlChart, PhaseOneSettings};
+    /// use mvdist::control_chart::{ControlChart, PhaseOneOptions};
     /// use ndarray::Array2;
     ///
     /// // Two strongly correlated variables.
@@ -117,7 +117,7 @@ impl SignalDiagnosis {
     ///     let x = (i as f64 * 0.37).sin() * 3.0;
     ///     if j == 0 { x } else { x + 0.3 * (i as f64 * 1.7).cos() }
     /// });
-    /// let chart = ControlChart::individuals(rows.view(), &PhaseOneSettings::default())?;
+    /// let chart = ControlChart::individuals(rows.view(), &PhaseOneOptions::default())?;
     /// // Each value in range, but the pair disagrees.
     /// let points = chart.monitor(ndarray::array![[2.0, -2.0]].view())?;
     /// let d = points[0].diagnosis.as_ref().ok_or("the point should signal")?;

@@ -40,14 +40,14 @@
 //!
 //! # Example
 //! ```
-//! use mvdist::control_chart::{ControlChart, PhaseOneSettings};
+//! use mvdist::control_chart::{ControlChart, PhaseOneOptions};
 //! use ndarray::array;
 //!
 //! let history = array![
 //!     [10.1, 4.9], [9.8, 5.2], [10.3, 5.1], [9.9, 4.8], [10.0, 5.0], [10.2, 5.3],
 //!     [9.7, 4.9], [10.1, 5.0], [9.9, 5.1], [10.0, 4.7], [10.4, 5.2], [9.6, 4.8],
 //! ];
-//! let chart = ControlChart::individuals(history.view(), &PhaseOneSettings::default())?;
+//! let chart = ControlChart::individuals(history.view(), &PhaseOneOptions::default())?;
 //! for point in chart.monitor(array![[10.1, 5.0], [11.5, 3.9]].view())? {
 //!     if let Some(why) = &point.diagnosis {
 //!         for term in why.exceeding() {
@@ -86,5 +86,5 @@ pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;
 pub use limits::ControlLimit;
 pub use point::{ChartPoint, PhaseOneRound, PointStatus};
-pub use settings::{PhaseOneSettings, PhaseOneStart, SignalRemoval};
+pub use settings::{PhaseOneOptions, PhaseOneStart, SignalRemoval};
 pub use svg::chart_svg;

@@ -51,41 +51,84 @@ pub enum PhaseOneStart {
     },
 }
 
-/// Settings of a Phase I chart.
+/// Options of a Phase I chart. Setters cannot fail and state their
+/// default; the chart checks the values once, when it is built.
 ///
 /// # Example
 /// ```
-/// use mvdist::control_chart::{FalseAlarmRate, PhaseOneSettings, SignalRemoval};
+/// use mvdist::control_chart::{FalseAlarmRate, PhaseOneOptions, SignalRemoval};
 ///
-/// let settings = PhaseOneSettings {
-///     false_alarm: FalseAlarmRate::from_average_run_length(200.0)?,
-///     removal: SignalRemoval::RefitUntilClean { max_rounds: 5 },
-///     ..PhaseOneSettings::default()
-/// };
-/// assert_eq!(settings.diagnosis_depth, 1);
+/// let options = PhaseOneOptions::default()
+///     .with_false_alarm(FalseAlarmRate::from_average_run_length(200.0)?)
+///     .with_removal(SignalRemoval::RefitUntilClean { max_rounds: 5 });
+/// assert_eq!(options.diagnosis_depth(), 1);
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-pub struct PhaseOneSettings {
-    /// False-alarm rate per point (Phase I and the Phase II limit derived
-    /// from it).
-    pub false_alarm: FalseAlarmRate,
-    /// What to do with Phase I signals.
-    pub removal: SignalRemoval,
-    /// The starting estimate.
-    pub start: PhaseOneStart,
-    /// Most conditioning variables in the decomposition of a signal: 0 for
-    /// unconditional terms only, 1 adds every `T²_{j·i}`, … (default 1).
-    pub diagnosis_depth: usize,
+#[non_exhaustive]
+pub struct PhaseOneOptions {
+    false_alarm: FalseAlarmRate,
+    removal: SignalRemoval,
+    start: PhaseOneStart,
+    diagnosis_depth: usize,
 }
 
-impl Default for PhaseOneSettings {
+impl Default for PhaseOneOptions {
     fn default() -> Self {
-        PhaseOneSettings {
+        PhaseOneOptions {
             false_alarm: FalseAlarmRate::default(),
             removal: SignalRemoval::Keep,
             start: PhaseOneStart::AllRows,
             diagnosis_depth: 1,
         }
+    }
+}
+
+impl PhaseOneOptions {
+    /// The false-alarm rate per point, for Phase I and the Phase II limit
+    /// derived from it (default: [`FalseAlarmRate::default`]).
+    pub fn with_false_alarm(mut self, rate: FalseAlarmRate) -> Self {
+        self.false_alarm = rate;
+        self
+    }
+
+    /// What to do with Phase I signals (default: [`SignalRemoval::Keep`]).
+    pub fn with_removal(mut self, removal: SignalRemoval) -> Self {
+        self.removal = removal;
+        self
+    }
+
+    /// The starting estimate (default: [`PhaseOneStart::AllRows`]).
+    pub fn with_start(mut self, start: PhaseOneStart) -> Self {
+        self.start = start;
+        self
+    }
+
+    /// Most conditioning variables in the decomposition of a signal: 0 for
+    /// unconditional terms only, 1 adds every `T²_{j·i}`, … (default 1;
+    /// depths beyond `p − 1` mean `p − 1`).
+    pub fn with_diagnosis_depth(mut self, depth: usize) -> Self {
+        self.diagnosis_depth = depth;
+        self
+    }
+
+    /// The false-alarm rate per point.
+    pub fn false_alarm(&self) -> FalseAlarmRate {
+        self.false_alarm
+    }
+
+    /// What Phase I does with signals.
+    pub fn removal(&self) -> SignalRemoval {
+        self.removal
+    }
+
+    /// The starting estimate.
+    pub fn start(&self) -> &PhaseOneStart {
+        &self.start
+    }
+
+    /// The diagnosis depth.
+    pub fn diagnosis_depth(&self) -> usize {
+        self.diagnosis_depth
     }
 }

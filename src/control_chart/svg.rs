@@ -132,11 +132,11 @@ fn probability(p: f64) -> String {
 ///
 /// # Example
 /// ```
-/// use mvdist::control_chart::{chart_svg, ControlChart, PhaseOneSettings};
+/// use mvdist::control_chart::{chart_svg, ControlChart, PhaseOneOptions};
 /// use ndarray::array;
 ///
 /// let history = array![[1.0, 2.0], [1.2, 2.1], [0.9, 1.8], [1.1, 2.3], [1.0, 1.9], [1.3, 2.2], [0.8, 2.0]];
-/// let chart = ControlChart::individuals(history.view(), &PhaseOneSettings::default())?;
+/// let chart = ControlChart::individuals(history.view(), &PhaseOneOptions::default())?;
 /// let new = chart.monitor(array![[1.0, 2.0], [3.0, 0.0]].view())?;
 /// let svg = chart_svg(&chart, &new, "Line 3 — T² chart")?;
 /// assert!(svg.starts_with("<svg") && svg.trim_end().ends_with("</svg>"));

@@ -5,7 +5,7 @@ use super::DEFAULT_REFACTOR_EVERY;
 use crate::calibration::{Reference, RowOrigin};
 use crate::data::check_row;
 use crate::error::{Error, Result};
-use crate::estimate::Estimator;
+use crate::estimate::FitMethod;
 use crate::model::{DistanceModel, RowScore};
 use crate::scatter::Scatter;
 
@@ -236,7 +236,7 @@ impl ForgettingModel {
             self.mean.clone(),
             scatter,
             (self.effective_sample_size().floor() as usize).max(1),
-            Estimator::ExponentiallyWeighted {
+            FitMethod::ExponentiallyWeighted {
                 forgetting: self.forgetting,
             },
         )

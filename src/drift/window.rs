@@ -6,7 +6,7 @@ use super::DEFAULT_REFACTOR_EVERY;
 use crate::calibration::{Reference, RowOrigin};
 use crate::data::check_row;
 use crate::error::{Error, Result};
-use crate::estimate::Estimator;
+use crate::estimate::FitMethod;
 use crate::model::{DistanceModel, RowScore};
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
@@ -282,7 +282,7 @@ impl SlidingWindowModel {
             self.mean.clone(),
             Scatter::from_row_major(&cov, self.p)?,
             self.len,
-            Estimator::SlidingWindow {
+            FitMethod::SlidingWindow {
                 capacity: self.capacity,
             },
         )

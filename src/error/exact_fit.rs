@@ -9,7 +9,7 @@ use std::fmt;
 ///
 /// # Example
 /// ```
-/// use mvdist::{robust::{minimum_covariance_determinant, McdSettings}, Error};
+/// use mvdist::{robust::{minimum_covariance_determinant, McdOptions}, Error};
 /// use ndarray::Array2;
 /// // 30 of 40 rows satisfy x₁ = 2·x₀ + 1; the rest are scattered.
 /// let rows = Array2::from_shape_fn((40, 2), |(i, j)| {
@@ -20,7 +20,7 @@ use std::fmt;
 ///         (false, _) => (t * 1.7).sin() * 50.0,
 ///     }
 /// });
-/// match minimum_covariance_determinant(rows.view(), &McdSettings::default()) {
+/// match minimum_covariance_determinant(rows.view(), &McdOptions::default()) {
 ///     Err(Error::ExactFit { hyperplane }) => {
 ///         assert!(hyperplane.rows().len() >= 30);
 ///         assert!(hyperplane.residual(&[3.0, 7.0]).abs() < 1e-12);

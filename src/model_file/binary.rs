@@ -17,7 +17,7 @@
 use super::crc32::crc32;
 use super::{ModelFile, FORMAT_VERSION};
 use crate::error::{Error, Result};
-use crate::estimate::Estimator;
+use crate::estimate::FitMethod;
 use crate::model::DistanceModel;
 use crate::scatter::Scatter;
 
@@ -34,7 +34,7 @@ pub(crate) fn encode(file: &ModelFile) -> Vec<u8> {
     out.extend_from_slice(&(FORMAT_VERSION as u16).to_le_bytes());
     out.extend_from_slice(&(p as u32).to_le_bytes());
     out.extend_from_slice(&(m.sample_size() as u64).to_le_bytes());
-    let est = serde_json::to_string(m.estimator()).unwrap_or_default();
+    let est = serde_json::to_string(m.fit_method()).unwrap_or_default();
     put_str(&mut out, &est);
     for v in file.variables() {
         put_str(&mut out, v);
@@ -133,7 +133,7 @@ pub(crate) fn decode(bytes: &[u8]) -> Result<ModelFile> {
     }
     let n = c.u64("sample size")?;
     let est_text = c.string("estimator")?;
-    let estimator: Estimator =
+    let estimator: FitMethod =
         serde_json::from_str(&est_text).map_err(|e| bad(format!("estimator: {e}")))?;
     let mut variables = Vec::with_capacity(p.min(1024));
     for _ in 0..p {

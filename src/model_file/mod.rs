@@ -56,7 +56,7 @@ mod binary;
 mod crc32;
 
 use crate::error::{Error, Result};
-use crate::estimate::Estimator;
+use crate::estimate::FitMethod;
 use crate::model::DistanceModel;
 use crate::scatter::Scatter;
 use serde::{Deserialize, Serialize};
@@ -82,7 +82,7 @@ struct FileData {
     n: usize,
     location: Vec<f64>,
     scatter: Scatter,
-    estimator: Estimator,
+    estimator: FitMethod,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     checksum: Option<String>,
 }
@@ -149,7 +149,7 @@ impl ModelFile {
             n: self.model.sample_size(),
             location: self.model.location().to_vec(),
             scatter: self.model.scatter().clone(),
-            estimator: self.model.estimator().clone(),
+            estimator: self.model.fit_method().clone(),
             checksum: None,
         };
         let checksum = checksum_of(&data);

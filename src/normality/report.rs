@@ -177,16 +177,17 @@ pub struct VariableSummary {
     pub shapiro_wilk_p_value: Option<f64>,
 }
 
-/// Settings for [`NormalityReport::compute`].
+/// Options of [`NormalityReport::compute`]. Setters cannot fail; the
+/// values are checked once, by `compute`.
 ///
 /// # Example
 /// ```
 /// use mvdist::normality::NormalityOptions;
-/// let options = NormalityOptions::default().with_alpha(0.01)?.with_pairwise_row_limit(20_000)?;
+/// let options = NormalityOptions::default().with_alpha(0.01).with_pairwise_row_limit(20_000);
 /// assert_eq!(options.alpha(), 0.01);
-/// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq)]
+#[non_exhaustive]
 pub struct NormalityOptions {
     alpha: f64,
     pairwise_row_limit: usize,
@@ -203,29 +204,31 @@ impl Default for NormalityOptions {
 }
 
 impl NormalityOptions {
-    /// The significance level for the `significant` flags and readings.
-    ///
-    /// # Errors
-    /// [`Error::InvalidParameter`] unless `0 < alpha < 1`.
-    pub fn with_alpha(mut self, alpha: f64) -> Result<Self> {
-        check_probability(alpha)?;
+    /// The significance level for the `significant` flags and readings
+    /// (default 0.05; `compute` rejects values outside (0, 1)).
+    pub fn with_alpha(mut self, alpha: f64) -> Self {
         self.alpha = alpha;
-        Ok(self)
+        self
     }
 
     /// The largest number of rows for which the Henze–Zirkler test (whose
     /// cost grows with `n²`: about 1.6 s for 50 000 rows of 10 variables on
     /// two cores) is computed; above it the test is reported as not
-    /// computed.
-    ///
-    /// # Errors
-    /// [`Error::InvalidParameter`] if `limit` is 0.
-    pub fn with_pairwise_row_limit(mut self, limit: usize) -> Result<Self> {
-        if limit == 0 {
-            return Err(Error::invalid("pairwise row limit", "must be at least 1"));
-        }
+    /// computed (default 50 000; `compute` rejects 0).
+    pub fn with_pairwise_row_limit(mut self, limit: usize) -> Self {
         self.pairwise_row_limit = limit;
-        Ok(self)
+        self
+    }
+
+    fn validate(&self) -> Result<()> {
+        check_probability(self.alpha)?;
+        if self.pairwise_row_limit == 0 {
+            return Err(Error::invalid(
+                "pairwise row limit",
+                "0 rows; it must be at least 1 (the default is 50 000)",
+            ));
+        }
+        Ok(())
     }
 
     /// The significance level.
@@ -292,11 +295,14 @@ impl NormalityReport {
     /// [`NormalityOptions::pairwise_row_limit`] rows.
     ///
     /// # Errors
-    /// Problems that stop every test: [`Error::Empty`];
+    /// [`Error::InvalidParameter`] for options out of range (`alpha`
+    /// outside (0, 1), a row limit of 0). Problems that stop every test:
+    /// [`Error::Empty`];
     /// [`Error::NonFinite`] naming the row and column;
     /// [`Error::TooFewRows`] unless `n > p`; [`Error::ZeroVariance`] or
     /// [`Error::Collinear`] naming the column; [`Error::Overflow`].
     pub fn compute(rows: ArrayView2<'_, f64>, options: &NormalityOptions) -> Result<Self> {
+        options.validate()?;
         let (n, p) = rows.dim();
         // Validates the sample once; the shared errors stop the report.
         super::blocks::fit_ml(rows)?;

@@ -13,7 +13,7 @@
 //!
 //! 1. **Raw estimate** — FastMCD (Rousseeuw and Van Driessen 1999): random
 //!    elemental starts, concentration steps, nested subsets for large `n`;
-//!    see [`McdSettings`] and `fast_mcd.rs`. The objective is
+//!    see [`McdOptions`] and `fast_mcd.rs`. The objective is
 //!    [`McdFit::raw_log_determinant`], `ln det` of the maximum-likelihood
 //!    covariance `S_H` (divisor `h`) of the chosen subset
 //!    [`McdFit::subset`].
@@ -34,7 +34,7 @@
 //! 0.975 χ² quantile), so when both find the same subset the raw and
 //! reweighted estimates agree to rounding; scikit-learn has no small-sample
 //! correction, so compare with it switched off
-//! ([`McdSettings::with_small_sample_replications`]`(0)`).
+//! ([`McdOptions::with_small_sample_replications`]`(0)`).
 //!
 //! **Which reference for the distances?** For the reweighted estimate
 //! ([`McdFit::model`]) the common practice is χ²(p) (Rousseeuw and Van
@@ -48,7 +48,7 @@
 //! heavier tails; their reference is the F approximation of Hardin and
 //! Rocke (2005), [`crate::Reference::RawMcdF`].
 //! [`crate::DistanceModel::reference`] picks the matching one from the
-//! model's [`crate::Estimator`].
+//! model's [`crate::FitMethod`].
 //!
 //! **Subset size.** The default `h = ⌊(n + p + 1)/2⌋` is the
 //! maximum-breakdown choice of Rousseeuw and Van Driessen (1999). Some
@@ -87,7 +87,7 @@
 //!
 //! # Example
 //! ```
-//! use mvdist::robust::{minimum_covariance_determinant, McdSettings};
+//! use mvdist::robust::{minimum_covariance_determinant, McdOptions};
 //! use ndarray::Array2;
 //!
 //! // 60 rows around (0, 0) and 15 far-away rows at (12, 12).
@@ -96,7 +96,7 @@
 //!     if i >= 60 { 12.0 + 0.1 * (t + j as f64).sin() }
 //!     else if j == 0 { (t * 0.37).sin() } else { (t * 0.73).cos() }
 //! });
-//! let fit = minimum_covariance_determinant(rows.view(), &McdSettings::default().with_seed(7))?;
+//! let fit = minimum_covariance_determinant(rows.view(), &McdOptions::default().with_seed(7))?;
 //! assert!(fit.subset().iter().all(|&i| i < 60));       // the far rows are not in the subset
 //! assert!(fit.location()[0].abs() < 0.5);               // the centre stays near (0, 0)
 //! let model = fit.model()?;
@@ -121,7 +121,7 @@ use crate::data::check_finite;
 use crate::distributions::ChiSquared;
 use crate::error::{Error, Result};
 pub use crate::estimate::McdStage;
-use crate::estimate::{Estimate, Estimator};
+use crate::estimate::{Estimate, FitMethod};
 use crate::kernels::distance as kernel;
 use crate::scatter::Scatter;
 use fast_mcd::{search, subset_moments, Search, SearchPlan};
@@ -130,35 +130,38 @@ use ndarray::{Array2, ArrayView2};
 /// Coverage of the reweighting cutoff: rows with `d² ≤ χ²_{p;0.975}` are kept.
 pub const REWEIGHT_COVERAGE: f64 = 0.975;
 
-/// Settings of a FastMCD fit.
+/// Options of a FastMCD fit. Setters cannot fail; the values are checked
+/// once, when a fit uses them.
 ///
-/// | setting | default | meaning |
+/// | option | default | meaning |
 /// |---|---|---|
 /// | support fraction | none: `h = ⌊(n + p + 1)/2⌋` | `h = ⌊fraction · n⌋`, which must lie in `[⌊(n+p+1)/2⌋, n]` |
 /// | seed | 0 | seed of the random subset draws; equal seeds give equal fits |
-/// | starts | 500 | random elemental starts (Rousseeuw and Van Driessen 1999) |
+/// | starts | 500 | random elemental starts (Rousseeuw and Van Driessen 1999); at least 1 |
 /// | small-sample replications | 100 | simulated samples for the Pison et al. correction (0: off; only used when `n ≤ 1000`; each costs about a tenth of a fit) |
 ///
 /// # Example
 /// ```
-/// use mvdist::robust::McdSettings;
-/// let s = McdSettings::default().with_support_fraction(0.75)?.with_seed(42);
+/// use mvdist::robust::McdOptions;
+/// let s = McdOptions::default().with_support_fraction(0.75).with_seed(42);
 /// assert_eq!(s.subset_size(100, 3)?, 75);
-/// assert_eq!(McdSettings::default().subset_size(100, 3)?, 52);
-/// assert!(McdSettings::default().with_support_fraction(1.5).is_err());
+/// assert_eq!(McdOptions::default().subset_size(100, 3)?, 52);
+/// // Checked where it is used: a fraction above 1 is an error there.
+/// assert!(McdOptions::default().with_support_fraction(1.5).subset_size(100, 3).is_err());
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Debug, PartialEq)]
-pub struct McdSettings {
+#[non_exhaustive]
+pub struct McdOptions {
     support_fraction: Option<f64>,
     seed: u64,
     starts: usize,
     small_sample_replications: usize,
 }
 
-impl Default for McdSettings {
+impl Default for McdOptions {
     fn default() -> Self {
-        McdSettings {
+        McdOptions {
             support_fraction: None,
             seed: 0,
             starts: 500,
@@ -167,43 +170,29 @@ impl Default for McdSettings {
     }
 }
 
-impl McdSettings {
-    /// Uses `h = ⌊fraction · n⌋` rows (as scikit-learn's `MinCovDet` does).
-    ///
-    /// # Errors
-    /// [`Error::InvalidParameter`] unless `0 < fraction ≤ 1` (whether `h` is
-    /// in range is checked at fit time, when `n` and `p` are known).
-    pub fn with_support_fraction(mut self, fraction: f64) -> Result<Self> {
-        if !(fraction > 0.0 && fraction <= 1.0) {
-            return Err(Error::invalid(
-                "support fraction",
-                format!("{fraction} is not in (0, 1]"),
-            ));
-        }
+impl McdOptions {
+    /// Uses `h = ⌊fraction · n⌋` rows (default: none, the maximum-breakdown
+    /// `h = ⌊(n + p + 1)/2⌋`). The fit checks that `0 < fraction ≤ 1` and
+    /// that `h` lies in `[⌊(n + p + 1)/2⌋, n]`.
+    pub fn with_support_fraction(mut self, fraction: f64) -> Self {
         self.support_fraction = Some(fraction);
-        Ok(self)
+        self
     }
 
-    /// Sets the seed of the random subset draws.
+    /// Sets the seed of the random subset draws (default 0).
     pub fn with_seed(mut self, seed: u64) -> Self {
         self.seed = seed;
         self
     }
 
-    /// Sets the number of random starts.
-    ///
-    /// # Errors
-    /// [`Error::InvalidParameter`] for 0.
-    pub fn with_starts(mut self, starts: usize) -> Result<Self> {
-        if starts == 0 {
-            return Err(Error::invalid("starts", "at least one start is needed"));
-        }
+    /// Sets the number of random starts (default 500; the fit rejects 0).
+    pub fn with_starts(mut self, starts: usize) -> Self {
         self.starts = starts;
-        Ok(self)
+        self
     }
 
     /// Sets the number of simulated samples for the small-sample
-    /// correction; 0 switches it off.
+    /// correction (default 100); 0 switches it off.
     pub fn with_small_sample_replications(mut self, replications: usize) -> Self {
         self.small_sample_replications = replications;
         self
@@ -232,9 +221,18 @@ impl McdSettings {
     /// The subset size `h` for `n` rows of `p` variables.
     ///
     /// # Errors
-    /// [`Error::InvalidParameter`] if `h` falls outside
+    /// [`Error::InvalidParameter`] unless the support fraction is in
+    /// `(0, 1]`, or if `h` falls outside
     /// `[⌊(n + p + 1)/2⌋, n]`; [`Error::TooFewRows`] unless `n > p`.
     pub fn subset_size(&self, n: usize, p: usize) -> Result<usize> {
+        if let Some(fraction) = self.support_fraction {
+            if !(fraction > 0.0 && fraction <= 1.0) {
+                return Err(Error::invalid(
+                    "support fraction",
+                    format!("{fraction} is not in (0, 1]"),
+                ));
+            }
+        }
         if n <= p {
             return Err(Error::TooFewRows {
                 rows: n,
@@ -265,10 +263,10 @@ impl McdSettings {
 ///
 /// # Example
 /// ```
-/// use mvdist::robust::{minimum_covariance_determinant, McdSettings};
+/// use mvdist::robust::{minimum_covariance_determinant, McdOptions};
 /// use ndarray::Array2;
 /// let rows = Array2::from_shape_fn((30, 2), |(i, j)| ((i * (j + 2)) as f64 * 0.77).sin());
-/// let fit = minimum_covariance_determinant(rows.view(), &McdSettings::default())?;
+/// let fit = minimum_covariance_determinant(rows.view(), &McdOptions::default())?;
 /// assert_eq!(fit.subset().len(), fit.subset_size());
 /// assert_eq!(fit.subset_size(), 16); // ⌊(30 + 2 + 1)/2⌋
 /// assert!(fit.reweighted_rows().len() > fit.dim());
@@ -289,7 +287,7 @@ pub struct McdFit {
     reweighted_factor: f64,
     reweighted_small_sample_factor: f64,
     reweighted_wishart_dof: Option<f64>,
-    settings: McdSettings,
+    settings: McdOptions,
 }
 
 impl McdFit {
@@ -367,19 +365,19 @@ impl McdFit {
     /// The simulated Wishart degrees of freedom `m` of the reweighted
     /// distances' F reference ([`crate::Reference::ReweightedMcdF`]); `None`
     /// when the small-sample simulation did not run (`n > 1000`, or
-    /// [`McdSettings::with_small_sample_replications`]`(0)`), in which case
+    /// [`McdOptions::with_small_sample_replications`]`(0)`), in which case
     /// the reweighted model uses χ²(p).
     pub fn reweighted_wishart_dof(&self) -> Option<f64> {
         self.reweighted_wishart_dof
     }
 
     /// The settings the fit used.
-    pub fn settings(&self) -> &McdSettings {
+    pub fn options(&self) -> &McdOptions {
         &self.settings
     }
 
-    fn estimator(&self, stage: McdStage, scale_factor: f64) -> Estimator {
-        Estimator::Mcd {
+    fn estimator(&self, stage: McdStage, scale_factor: f64) -> FitMethod {
+        FitMethod::Mcd {
             stage,
             subset_size: self.subset_size(),
             support_fraction: self.settings.support_fraction,
@@ -393,7 +391,7 @@ impl McdFit {
     }
 
     /// The reweighted estimate: location, scatter, `n`, and an
-    /// [`Estimator::Mcd`] record with the simulated
+    /// [`FitMethod::Mcd`] record with the simulated
     /// [`reweighted_wishart_dof`](Self::reweighted_wishart_dof).
     pub fn estimate(&self) -> Estimate {
         Estimate {
@@ -479,17 +477,17 @@ fn scaled(s: &Scatter, factor: f64) -> Result<Scatter> {
 ///
 /// # Example
 /// ```
-/// use mvdist::{robust::{minimum_covariance_determinant, McdSettings}, Error};
+/// use mvdist::{robust::{minimum_covariance_determinant, McdOptions}, Error};
 /// use ndarray::array;
 /// let few = array![[1.0, 2.0, 3.0], [2.0, 1.0, 0.0]];
 /// assert!(matches!(
-///     minimum_covariance_determinant(few.view(), &McdSettings::default()),
+///     minimum_covariance_determinant(few.view(), &McdOptions::default()),
 ///     Err(Error::TooFewRows { .. })
 /// ));
 /// ```
 pub fn minimum_covariance_determinant(
     rows: ArrayView2<'_, f64>,
-    settings: &McdSettings,
+    settings: &McdOptions,
 ) -> Result<McdFit> {
     let (n, p) = rows.dim();
     if p == 0 {
@@ -499,6 +497,12 @@ pub fn minimum_covariance_determinant(
         return Err(Error::Empty { what: "rows" });
     }
     check_finite(rows)?;
+    if settings.starts == 0 {
+        return Err(Error::invalid(
+            "starts",
+            "0 random starts; at least one is needed (the default is 500)",
+        ));
+    }
     let h = settings.subset_size(n, p)?;
     for j in 0..p {
         let col = rows.column(j);

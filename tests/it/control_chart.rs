@@ -7,7 +7,7 @@ use crate::common::{fixture, rel, Rng};
 use mvdist::calibration::Law;
 use mvdist::control_chart::decomposition::{conditional_terms, term_count, terms_along};
 use mvdist::control_chart::{
-    chart_svg, ChartDesign, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,
+    chart_svg, ChartDesign, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneOptions,
     PhaseOneStart, PointStatus, SignalRemoval,
 };
 use mvdist::moments::{Divisor, GroupMoments};
@@ -272,15 +272,13 @@ fn phase_one_removes_signals_until_clean_and_respects_the_cap() {
     x[(31, 2)] -= 8.0;
     x[(44, 1)] += 3.5; // breaks the correlation with column 0 and 2
     x[(44, 2)] -= 3.5;
-    let keep = ControlChart::individuals(x.view(), &PhaseOneSettings::default()).unwrap();
+    let keep = ControlChart::individuals(x.view(), &PhaseOneOptions::default()).unwrap();
     assert_eq!(keep.rounds().len(), 1);
     assert_eq!(keep.in_estimate(), 60);
     assert!(keep.phase_one_points()[7].signal);
 
-    let settings = PhaseOneSettings {
-        removal: SignalRemoval::RefitUntilClean { max_rounds: 10 },
-        ..PhaseOneSettings::default()
-    };
+    let settings =
+        PhaseOneOptions::default().with_removal(SignalRemoval::RefitUntilClean { max_rounds: 10 });
     let chart = ControlChart::individuals(x.view(), &settings).unwrap();
     assert!(!chart.reached_round_cap());
     let last = chart.rounds().last().unwrap();
@@ -319,10 +317,7 @@ fn phase_one_removes_signals_until_clean_and_respects_the_cap() {
     // A cap of zero rounds removes nothing and says it stopped at the cap.
     let capped = ControlChart::individuals(
         x.view(),
-        &PhaseOneSettings {
-            removal: SignalRemoval::RefitUntilClean { max_rounds: 0 },
-            ..PhaseOneSettings::default()
-        },
+        &PhaseOneOptions::default().with_removal(SignalRemoval::RefitUntilClean { max_rounds: 0 }),
     )
     .unwrap();
     assert!(capped.reached_round_cap());
@@ -340,13 +335,10 @@ fn a_supplied_start_model_screens_gross_outliers() {
     // A model of the clean process fitted on other rows.
     let clean = process(&mut rng, 200, 2);
     let model = DistanceModel::fit(clean.view()).unwrap();
-    let settings = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith {
-            model,
-            origin: RowOrigin::New,
-        },
-        ..PhaseOneSettings::default()
-    };
+    let settings = PhaseOneOptions::default().with_start(PhaseOneStart::ScreenWith {
+        model,
+        origin: RowOrigin::New,
+    });
     let chart = ControlChart::individuals(x.view(), &settings).unwrap();
     for i in 0..6 {
         assert!(matches!(
@@ -356,13 +348,10 @@ fn a_supplied_start_model_screens_gross_outliers() {
     }
     assert_eq!(chart.in_estimate(), 34);
     let wrong = DistanceModel::fit(process(&mut rng, 30, 3).view()).unwrap();
-    let bad = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith {
-            model: wrong,
-            origin: RowOrigin::New,
-        },
-        ..PhaseOneSettings::default()
-    };
+    let bad = PhaseOneOptions::default().with_start(PhaseOneStart::ScreenWith {
+        model: wrong,
+        origin: RowOrigin::New,
+    });
     assert!(matches!(
         ControlChart::individuals(x.view(), &bad),
         Err(Error::ShapeMismatch { .. })
@@ -377,7 +366,7 @@ fn subgroup_chart_uses_subgroup_means_and_the_pooled_scatter() {
     for r in 40..44 {
         x[(r, 1)] += 2.5; // subgroup 10 shifted
     }
-    let chart = ControlChart::subgroups(x.view(), n, &PhaseOneSettings::default()).unwrap();
+    let chart = ControlChart::subgroups(x.view(), n, &PhaseOneOptions::default()).unwrap();
     assert_eq!(chart.design(), ChartDesign::Subgroups { size: n });
     // Independent computation: T²ⱼ = n (x̄ⱼ − x̿)ᵀ S_p⁻¹ (x̄ⱼ − x̿), with S_p
     // the pooled within-subgroup covariance (GroupMoments) and a solve.
@@ -418,7 +407,7 @@ fn subgroup_chart_uses_subgroup_means_and_the_pooled_scatter() {
 fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
     let mut rng = Rng(3);
     let x = process(&mut rng, 50, 4);
-    let chart = ControlChart::individuals(x.view(), &PhaseOneSettings::default()).unwrap();
+    let chart = ControlChart::individuals(x.view(), &PhaseOneOptions::default()).unwrap();
     let point = [0.5, 2.5, -1.0, 0.3];
     let terms = chart
         .decompose_along(&point, &[3, 1, 0, 2], RowOrigin::New)
@@ -455,7 +444,7 @@ fn decomposition_along_an_order_is_rated_and_sums_to_t_squared() {
 
 #[test]
 fn chart_errors_are_typed() {
-    let settings = PhaseOneSettings::default();
+    let settings = PhaseOneOptions::default();
     // Individuals need p + 2 rows.
     let x = array![[1.0, 2.0], [2.0, 1.0], [0.5, 0.7]];
     assert!(matches!(
@@ -527,13 +516,10 @@ fn chart_errors_are_typed() {
         Err(Error::TooFewRows { .. })
     ));
     let model = DistanceModel::fit(v.view()).unwrap();
-    let screen = PhaseOneSettings {
-        start: PhaseOneStart::ScreenWith {
-            model,
-            origin: RowOrigin::KnownParameters,
-        },
-        ..PhaseOneSettings::default()
-    };
+    let screen = PhaseOneOptions::default().with_start(PhaseOneStart::ScreenWith {
+        model,
+        origin: RowOrigin::KnownParameters,
+    });
     assert!(matches!(
         ControlChart::subgroups(v.view(), 3, &screen),
         Err(Error::InvalidParameter { .. })
@@ -559,10 +545,7 @@ fn in_control_false_alarm_rates_match_alpha() {
     let reps = 200_000usize;
     let alpha = 0.01;
     let rate = FalseAlarmRate::per_point(alpha).unwrap();
-    let settings = PhaseOneSettings {
-        false_alarm: rate,
-        ..PhaseOneSettings::default()
-    };
+    let settings = PhaseOneOptions::default().with_false_alarm(rate);
     let (m, p) = (30, 3);
     let mut phase2 = 0usize;
     let mut phase1 = 0usize;

@@ -40,7 +40,7 @@ const ROOT_NAMES: &[(&str, &str)] = &[
     ("Divisor", "moments"),
     ("MomentAccumulator", "moments"),
     ("Estimate", "estimate"),
-    ("Estimator", "estimate"),
+    ("FitMethod", "estimate"),
     ("Reference", "calibration"),
     ("RowOrigin", "calibration"),
     ("Adjustment", "calibration"),

@@ -161,7 +161,7 @@ fn exercise_classifier(c: &Classifier<u8>, x: ArrayView2<'_, f64>, values: &[f64
     for level in [0.05, 0.0, 1.0, f64::NAN, 1e-300] {
         let options = PredictOptions::default().with_no_group_below(level);
         let _ = c.predict_into(x, &options, &mut buffer);
-        let _ = c.predict_into(x, &options.without_typicality(), &mut buffer);
+        let _ = c.predict_into(x, &options.with_typicality(false), &mut buffer);
     }
     let row: Vec<f64> = values.iter().copied().cycle().take(p).collect();
     if let Ok(pred) = c.predict_row(&row) {
@@ -251,7 +251,8 @@ fn exercise_normality(x: ArrayView2<'_, f64>, values: &[f64]) {
     }
     let _ = ShapiroWilkCoefficients::new(values.len());
     for alpha in [0.05, 0.0, f64::NAN] {
-        if let Ok(options) = NormalityOptions::default().with_alpha(alpha) {
+        {
+            let options = NormalityOptions::default().with_alpha(alpha);
             if let Ok(report) = NormalityReport::compute(x, &options) {
                 let json = serde_json::to_string(&report).unwrap_or_default();
                 assert!(
@@ -295,7 +296,7 @@ proptest! {
             let square: Vec<f64> = values.iter().copied().cycle().take(p * p).collect();
             if let Ok(s) = Scatter::from_row_major(&square, p) {
                 let loc: Vec<f64> = values.iter().copied().take(p).collect();
-                if let Ok(model) = DistanceModel::from_parts(loc, s, n.max(1), mvdist::Estimator::Supplied) {
+                if let Ok(model) = DistanceModel::from_parts(loc, s, n.max(1), mvdist::FitMethod::Supplied) {
                     exercise_model(&model, x.view(), &values);
                 }
             }
@@ -306,7 +307,7 @@ proptest! {
             }
         }
         // Shrinkage and robust fits.
-        use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdSettings};
+        use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdOptions};
         use mvdist::shrinkage::{ledoit_wolf, oas, shrink, OasFormula, ShrinkageTarget};
         let mut fitted = Vec::new();
         fitted.push(ledoit_wolf(x.view()).map(|f| f.into_model()));
@@ -322,12 +323,10 @@ proptest! {
             assert!(model.scatter().log_determinant().is_finite());
             exercise_model(&model, x.view(), &values);
         }
-        let quick = McdSettings::default().with_starts(20).unwrap().with_small_sample_replications(0);
-        let mut settings = vec![quick.clone(), McdSettings::default().with_small_sample_replications(3)];
+        let quick = McdOptions::default().with_starts(20).with_small_sample_replications(0);
+        let mut settings = vec![quick.clone(), McdOptions::default().with_small_sample_replications(3)];
         for &v in values.iter().take(2).chain([0.75, 1.0].iter()) {
-            if let Ok(s) = quick.clone().with_support_fraction(v) {
-                settings.push(s);
-            }
+            settings.push(quick.clone().with_support_fraction(v));
         }
         for s in &settings {
             if let Ok(fit) = minimum_covariance_determinant(x.view(), s) {
@@ -446,7 +445,7 @@ proptest! {
     #[test]
     fn mean_tests_and_charts_never_panic(a in matrix(), b in matrix(), depth in 0usize..4, size in 0usize..4, alpha in special()) {
         use mvdist::control_chart::{
-            chart_svg, decomposition, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneSettings,
+            chart_svg, decomposition, ControlChart, ControlLimit, FalseAlarmRate, PhaseOneOptions,
             PhaseOneStart, SignalRemoval,
         };
         use mvdist::mean_tests;
@@ -481,7 +480,7 @@ proptest! {
         let rate = FalseAlarmRate::per_point(alpha.abs().fract()).unwrap_or_default();
         let _ = FalseAlarmRate::from_average_run_length(alpha);
         for removal in [SignalRemoval::Keep, SignalRemoval::RefitUntilClean { max_rounds: 3 }] {
-            let settings = PhaseOneSettings { false_alarm: rate, removal, start: PhaseOneStart::AllRows, diagnosis_depth: depth };
+            let settings = PhaseOneOptions::default().with_false_alarm(rate).with_removal(removal).with_start(PhaseOneStart::AllRows).with_diagnosis_depth(depth);
             let charts = [ControlChart::individuals(a.view(), &settings), ControlChart::subgroups(a.view(), size, &settings)];
             for chart in charts.into_iter().flatten() {
                 for pt in chart.phase_one_points() {
@@ -498,7 +497,7 @@ proptest! {
                 let _ = decomposition::conditional_terms(chart.point_scatter(), &row, depth);
             }
             if let Ok(model) = DistanceModel::fit(b.view()) {
-                let screened = PhaseOneSettings { start: PhaseOneStart::ScreenWith { model, origin: RowOrigin::KnownParameters }, ..settings };
+                let screened = settings.clone().with_start(PhaseOneStart::ScreenWith { model, origin: RowOrigin::KnownParameters });
                 let _ = ControlChart::individuals(a.view(), &screened);
             }
         }
@@ -650,7 +649,7 @@ where
 
 #[test]
 fn mutated_serialized_values_never_panic() {
-    use mvdist::control_chart::{chart_svg, decomposition, ControlChart, PhaseOneSettings};
+    use mvdist::control_chart::{chart_svg, decomposition, ControlChart, PhaseOneOptions};
     use mvdist::mean_tests;
     use mvdist::normality::{
         ChiSquareQq, DoornikHansen, HenzeZirkler, Mardia, NormalityOptions, NormalityReport,
@@ -717,7 +716,7 @@ fn mutated_serialized_values_never_panic() {
         let _ = e.push(&probe);
         let _ = e.covariance(Divisor::Unbiased);
     });
-    let settings = PhaseOneSettings::default();
+    let settings = PhaseOneOptions::default();
     let chart = ControlChart::individuals(rows, &settings).unwrap();
     survives_mutations(&chart, |c| {
         if let Ok(points) = c.monitor(rows) {

@@ -399,9 +399,7 @@ fn report_skips_tests_that_do_not_apply() {
     // pairwise limit of 1000 Henze–Zirkler is skipped too.
     let mut rng = Rng(11);
     let x = Array2::from_shape_fn((6000, 3), |_| rng.normal());
-    let options = NormalityOptions::default()
-        .with_pairwise_row_limit(1000)
-        .unwrap();
+    let options = NormalityOptions::default().with_pairwise_row_limit(1000);
     let report = NormalityReport::compute(x.view(), &options).unwrap();
     for t in [NormalityTest::RoystonH, NormalityTest::HenzeZirkler] {
         assert!(matches!(
@@ -477,7 +475,18 @@ fn degenerate_input_is_a_typed_error() {
         .shapiro_wilk
         .is_none());
     assert!(HenzeZirkler::compute_with_smoothing(big.view(), 0.0).is_err());
-    assert!(NormalityOptions::default().with_alpha(1.0).is_err());
+    // Options are checked where they are used.
+    let few = Array2::from_shape_fn((20, 2), |(i, j)| ((i * (j + 3)) as f64 * 0.7).sin());
+    for bad in [
+        NormalityOptions::default().with_alpha(1.0),
+        NormalityOptions::default().with_alpha(f64::NAN),
+        NormalityOptions::default().with_pairwise_row_limit(0),
+    ] {
+        assert!(matches!(
+            NormalityReport::compute(few.view(), &bad),
+            Err(mvdist::Error::InvalidParameter { .. })
+        ));
+    }
 }
 
 /// `b₁,ₚ` by its definition: `n⁻² Σ_{i,j} (z_iᵀ z_j)³` over whitened rows.

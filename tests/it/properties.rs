@@ -109,7 +109,7 @@ proptest! {
         // The same variances as a full (non-flagged) matrix agree.
         let full = Scatter::new(ndarray::Array2::from_diag(&Array1::from(var.clone())).view()).unwrap();
         prop_assert!(full.is_diagonal());
-        let model = DistanceModel::from_parts(vec![0.0; p], s, 100, mvdist::Estimator::Supplied).unwrap();
+        let model = DistanceModel::from_parts(vec![0.0; p], s, 100, mvdist::FitMethod::Supplied).unwrap();
         let rows = Array2::from_shape_fn((3, p), |(i, j)| c[j] * (i as f64 + 1.0));
         let d = model.squared_distances(rows.view()).unwrap();
         prop_assert!(rel(d[0], want) < 1e-14);

@@ -230,7 +230,7 @@ fn ill_conditioned_scaled_scatter_keeps_accuracy() {
     // inputs (fixture script).
     let (s, mean, points, want, cond) = ill_conditioned_case("scaled");
     assert!(cond > 1e11);
-    let model = DistanceModel::from_parts(mean, s, 569, mvdist::Estimator::Supplied).unwrap();
+    let model = DistanceModel::from_parts(mean, s, 569, mvdist::FitMethod::Supplied).unwrap();
     for (x, w) in points.iter().zip(&want) {
         let d2 = model.squared_distance(x).unwrap();
         assert!(rel(d2, *w) < 1e-9, "{d2} vs {w}");
@@ -247,7 +247,7 @@ fn ill_conditioned_rotated_scatter_is_accurate_with_refinement() {
     // the one that meets 1e-6 (it meets 1e-12).
     let (s, mean, points, want, cond) = ill_conditioned_case("rotated");
     assert!(cond > 1e11);
-    let model = DistanceModel::from_parts(mean, s, 1000, mvdist::Estimator::Supplied).unwrap();
+    let model = DistanceModel::from_parts(mean, s, 1000, mvdist::FitMethod::Supplied).unwrap();
     let mut worst_plain = 0.0f64;
     for (x, w) in points.iter().zip(&want) {
         let refined = model.squared_distance_refined(x).unwrap();

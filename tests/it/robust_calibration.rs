@@ -3,7 +3,7 @@
 
 use crate::common::Rng;
 use mvdist::calibration::{Reference, ReferenceKind};
-use mvdist::robust::{minimum_covariance_determinant, McdSettings};
+use mvdist::robust::{minimum_covariance_determinant, McdOptions};
 use mvdist::RowOrigin;
 use ndarray::Array2;
 
@@ -23,7 +23,7 @@ fn normal(rng: &mut Rng, n: usize, p: usize) -> Array2<f64> {
 fn hardin_rocke_degrees_of_freedom_match_simulation() {
     let (n, p, reps) = (200, 5, 200);
     let settings = |s: u64| {
-        McdSettings::default()
+        McdOptions::default()
             .with_seed(s)
             .with_small_sample_replications(0)
     };
@@ -73,7 +73,7 @@ fn small_sample_factors_shrink_toward_one() {
     for n in [30usize, 100, 1000] {
         let mut rng = Rng(5 + n as u64);
         let x = normal(&mut rng, n, p);
-        let fit = minimum_covariance_determinant(x.view(), &McdSettings::default()).unwrap();
+        let fit = minimum_covariance_determinant(x.view(), &McdOptions::default()).unwrap();
         let f = fit.raw_small_sample_factor();
         let g = fit.reweighted_small_sample_factor();
         eprintln!("n = {n}: raw factor {f:.4}, reweighted factor {g:.4}");
@@ -106,7 +106,7 @@ fn reweighted_reference_has_close_to_nominal_size() {
             let x = normal(&mut rng, n, p);
             let fit = minimum_covariance_determinant(
                 x.view(),
-                &McdSettings::default().with_seed(r as u64),
+                &McdOptions::default().with_seed(r as u64),
             )
             .unwrap();
             let model = fit.model().unwrap();

@@ -4,9 +4,9 @@
 
 use crate::common;
 use crate::common::{matrix, matrix_rel, rel, vector};
-use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdSettings};
+use mvdist::robust::{consistency_factor, minimum_covariance_determinant, McdOptions};
 use mvdist::shrinkage::{ledoit_wolf, oas, shrink, OasFormula, ShrinkageTarget};
-use mvdist::{DistanceModel, Estimator, Reference, RowOrigin};
+use mvdist::{DistanceModel, FitMethod, Reference, RowOrigin};
 use ndarray::{array, Array2};
 use serde_json::Value;
 
@@ -215,10 +215,9 @@ fn consistency_factor_matches_scipy() {
     }
 }
 
-fn mcd_settings(d: &Value, seed: u64) -> McdSettings {
-    McdSettings::default()
+fn mcd_settings(d: &Value, seed: u64) -> McdOptions {
+    McdOptions::default()
         .with_support_fraction(d["mcd"]["support_fraction"].as_f64().unwrap())
-        .unwrap()
         .with_seed(seed)
         .with_small_sample_replications(0)
 }
@@ -267,8 +266,8 @@ fn mcd_models_record_the_estimator_and_pick_the_reference() {
     let x = matrix(&d["data"]);
     let fit = minimum_covariance_determinant(x.view(), &mcd_settings(d, 3)).unwrap();
     let model = fit.model().unwrap();
-    match model.estimator() {
-        Estimator::Mcd {
+    match model.fit_method() {
+        FitMethod::Mcd {
             stage,
             subset_size,
             seed,
@@ -310,7 +309,7 @@ fn mcd_models_record_the_estimator_and_pick_the_reference() {
 #[test]
 fn mcd_errors_are_typed() {
     use mvdist::Error;
-    let s = McdSettings::default().with_small_sample_replications(0);
+    let s = McdOptions::default().with_small_sample_replications(0);
     let few = Array2::from_shape_fn((3, 4), |(i, j)| (i * 4 + j) as f64);
     assert!(matches!(
         minimum_covariance_determinant(few.view(), &s),
@@ -329,13 +328,22 @@ fn mcd_errors_are_typed() {
     ));
     let x = Array2::from_shape_fn((20, 2), |(i, j)| ((i * (j + 2)) as f64 * 0.91).sin());
     // h = ⌊0.3·20⌋ = 6 < ⌊23/2⌋ = 11: out of range.
-    let low = McdSettings::default().with_support_fraction(0.3).unwrap();
+    let low = McdOptions::default().with_support_fraction(0.3);
     assert!(matches!(
         minimum_covariance_determinant(x.view(), &low),
         Err(Error::InvalidParameter { .. })
     ));
-    assert!(McdSettings::default().with_support_fraction(0.0).is_err());
-    assert!(McdSettings::default().with_starts(0).is_err());
+    // Options are checked where a fit uses them.
+    for bad in [
+        McdOptions::default().with_support_fraction(0.0),
+        McdOptions::default().with_support_fraction(f64::NAN),
+        McdOptions::default().with_starts(0),
+    ] {
+        assert!(matches!(
+            minimum_covariance_determinant(x.view(), &bad),
+            Err(Error::InvalidParameter { .. })
+        ));
+    }
     let mut nan = x.clone();
     nan[(5, 1)] = f64::INFINITY;
     assert!(matches!(
@@ -361,7 +369,7 @@ fn exact_fit_reports_the_hyperplane() {
             _ => (t * 2.3).sin() * 40.0,
         }
     });
-    let s = McdSettings::default().with_small_sample_replications(0);
+    let s = McdOptions::default().with_small_sample_replications(0);
     match minimum_covariance_determinant(x.view(), &s) {
         Err(Error::ExactFit { hyperplane }) => {
             assert!(hyperplane.rows().len() >= 35, "{:?}", hyperplane.rows());
@@ -397,7 +405,7 @@ fn exact_fit_on_open_data() {
     let x = matrix(&d["data"]);
     let value = d["sex_values"][0].as_f64().unwrap();
     for seed in [0u64, 5] {
-        let s = McdSettings::default().with_seed(seed);
+        let s = McdOptions::default().with_seed(seed);
         match minimum_covariance_determinant(x.view(), &s) {
             Err(Error::ExactFit { hyperplane }) => {
                 assert_eq!(hyperplane.rows().len(), 235);
@@ -441,9 +449,8 @@ fn stack_loss_matches_scikit_learn_at_its_subset_size() {
         .map(|r| r["raw_log_determinant"].as_f64().unwrap())
         .fold(f64::INFINITY, f64::min);
     for seed in [0u64, 1, 2] {
-        let settings = McdSettings::default()
+        let settings = McdOptions::default()
             .with_support_fraction(h as f64 / 21.0)
-            .unwrap()
             .with_seed(seed)
             .with_small_sample_replications(0);
         let fit = minimum_covariance_determinant(x.view(), &settings).unwrap();
@@ -491,7 +498,7 @@ fn stack_loss_matches_scikit_learn_at_its_subset_size() {
 fn stack_loss_with_the_default_subset_size() {
     let d = common::fixture("stackloss.json");
     let x = matrix(&d["data"]);
-    let fit = minimum_covariance_determinant(x.view(), &McdSettings::default()).unwrap();
+    let fit = minimum_covariance_determinant(x.view(), &McdOptions::default()).unwrap();
     assert_eq!(fit.subset_size(), 12);
     let m = fit.reweighted_wishart_dof().expect("simulated at n = 21");
     let model = fit.model().unwrap();
@@ -518,7 +525,7 @@ fn stack_loss_with_the_default_subset_size() {
 fn reweighted_reference_survives_serialization() {
     let d = common::fixture("stackloss.json");
     let x = matrix(&d["data"]);
-    let fit = minimum_covariance_determinant(x.view(), &McdSettings::default()).unwrap();
+    let fit = minimum_covariance_determinant(x.view(), &McdOptions::default()).unwrap();
     let model = fit.model().unwrap();
     let json = serde_json::to_value(&model).unwrap();
     let back: DistanceModel = serde_json::from_value(json.clone()).unwrap();

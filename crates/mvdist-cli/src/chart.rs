@@ -7,7 +7,7 @@ use crate::output::{csv_field, load_model_file, number_field, write_atomically, 
 use crate::table::{read_table, read_table_named, ColumnChoice};
 use crate::CliError;
 use mvdist::control_chart::{
-    chart_svg, ChartPoint, ControlChart, FalseAlarmRate, PhaseOneSettings, PhaseOneStart,
+    chart_svg, ChartPoint, ControlChart, FalseAlarmRate, PhaseOneOptions, PhaseOneStart,
     PointStatus, SignalRemoval,
 };
 use mvdist::RowOrigin;
@@ -125,18 +125,17 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             }
         }
     };
-    let settings = PhaseOneSettings {
-        false_alarm: rate,
-        removal: if args.remove_signals {
+    let settings = PhaseOneOptions::default()
+        .with_false_alarm(rate)
+        .with_removal(if args.remove_signals {
             SignalRemoval::RefitUntilClean {
                 max_rounds: args.max_rounds,
             }
         } else {
             SignalRemoval::Keep
-        },
-        start,
-        diagnosis_depth: args.depth,
-    };
+        })
+        .with_start(start)
+        .with_diagnosis_depth(args.depth);
     let rows = mvdist::data::rows_from_slice(&history.data, p)?;
     let chart = match args.subgroup_size {
         None => ControlChart::individuals(rows, &settings),

@@ -269,9 +269,9 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
     )?;
     let data = read_rows(&args.data, &mut reader, &data_layout)?;
     let x = mvdist::data::rows_from_slice(&data.data, p)?;
-    let predict = PredictOptions {
-        no_group_below: args.no_group_below,
-        ..PredictOptions::default()
+    let predict = match args.no_group_below {
+        Some(level) => PredictOptions::default().with_no_group_below(level),
+        None => PredictOptions::default(),
     };
 
     let mut out = Predictions::new();

@@ -3,7 +3,7 @@
 use crate::table::{read_table, ColumnChoice};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
-use mvdist::robust::McdSettings;
+use mvdist::robust::McdOptions;
 use mvdist::shrinkage::OasFormula;
 use mvdist::{DistanceModel, Divisor, Error};
 use std::path::{Path, PathBuf};
@@ -106,11 +106,14 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
         EstimatorChoice::LedoitWolf => DistanceModel::fit_ledoit_wolf(rows),
         EstimatorChoice::Oas => DistanceModel::fit_oas(rows, OasFormula::Published),
         EstimatorChoice::Mcd => {
-            let mut settings = McdSettings::default().with_seed(args.seed.unwrap_or(0));
+            let mut settings = McdOptions::default().with_seed(args.seed.unwrap_or(0));
             if let Some(f) = args.support {
-                settings = settings
-                    .with_support_fraction(f)
-                    .map_err(|e| CliError(format!("--support {f}: {e}")))?;
+                if !(f > 0.0 && f <= 1.0) {
+                    return Err(CliError(format!(
+                        "--support {f}: the support fraction must be in (0, 1]"
+                    )));
+                }
+                settings = settings.with_support_fraction(f);
             }
             DistanceModel::fit_mcd(rows, &settings)
         }

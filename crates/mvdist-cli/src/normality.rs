@@ -26,9 +26,13 @@ pub struct NormalityArgs {
 
 pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
     let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
-    let options = NormalityOptions::default()
-        .with_alpha(args.alpha)
-        .map_err(|e| CliError(format!("--alpha: {e}")))?;
+    if !(args.alpha > 0.0 && args.alpha < 1.0) {
+        return Err(CliError(format!(
+            "--alpha: {} is not a probability strictly between 0 and 1",
+            args.alpha
+        )));
+    }
+    let options = NormalityOptions::default().with_alpha(args.alpha);
     let rows = mvdist::data::rows_from_slice(&table.data, table.names.len())?;
     let report = NormalityReport::compute(rows, &options)
         .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?

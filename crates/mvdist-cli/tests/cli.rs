@@ -580,7 +580,7 @@ fn read_points(path: &Path) -> (Vec<String>, Vec<Vec<String>>) {
 
 #[test]
 fn chart_writes_points_and_svg_that_match_the_library() {
-    use mvdist::control_chart::{ControlChart, FalseAlarmRate, PhaseOneSettings, SignalRemoval};
+    use mvdist::control_chart::{ControlChart, FalseAlarmRate, PhaseOneOptions, SignalRemoval};
     let dir = TempDir::new().unwrap();
     let (a, xa) = species_csv(dir.path(), 1);
     let (b, xb) = species_csv(dir.path(), 2);
@@ -609,12 +609,10 @@ fn chart_writes_points_and_svg_that_match_the_library() {
         .stdout(predicate::str::contains("Phase I: 50 rows × 4 variables"))
         .stdout(predicate::str::contains("Phase II: 50 new points"))
         .stdout(predicate::str::contains("prompt to investigate"));
-    let settings = PhaseOneSettings {
-        false_alarm: FalseAlarmRate::from_average_run_length(200.0).unwrap(),
-        removal: SignalRemoval::RefitUntilClean { max_rounds: 10 },
-        diagnosis_depth: 2,
-        ..PhaseOneSettings::default()
-    };
+    let settings = PhaseOneOptions::default()
+        .with_false_alarm(FalseAlarmRate::from_average_run_length(200.0).unwrap())
+        .with_removal(SignalRemoval::RefitUntilClean { max_rounds: 10 })
+        .with_diagnosis_depth(2);
     let chart = ControlChart::individuals(xa.view(), &settings).unwrap();
     let new = chart.monitor(xb.view()).unwrap();
     let (header, rows) = read_points(&out);
