@@ -1,11 +1,128 @@
 //! Data conventions: rows are observations, columns are variables.
 //!
-//! Entry points take `ndarray` views of any layout or strides, or row-major
-//! `&[f64]` slices with an explicit column count (see [`rows_from_slice`]).
-//! Nothing here copies data.
+//! Batch entry points take [`Rows`]: an `ndarray` view of any layout or
+//! strides, or a row-major slice with an explicit column count, of `f64`
+//! or `f32` values. `ArrayView2<f64>`, `ArrayView2<f32>` and references to
+//! owned arrays convert into it, so `model.squared_distances(x.view())`
+//! and `model.squared_distances(Rows::from_slice(&data, p)?)` are the same
+//! call. Nothing here copies data.
 
 use crate::error::{Error, Result};
-use ndarray::ArrayView2;
+use ndarray::{Array2, ArrayView2};
+
+/// A batch of rows (observations × variables) in double or single
+/// precision, borrowed without copying.
+///
+/// Single-precision rows are widened to `f64` block by block as they are
+/// used (centring and every sum run in `f64`); fits that need the whole
+/// matrix widen it once.
+///
+/// # Example
+/// ```
+/// use mvdist::{data::Rows, DistanceModel};
+/// use ndarray::array;
+///
+/// let x = array![[1.0, 2.0], [2.0, 2.9], [3.0, 4.2], [4.0, 4.8], [5.0, 6.1]];
+/// let model = DistanceModel::fit(x.view())?;
+/// let flat = [3.0, 4.0, 1.0, 2.0];
+/// let from_slice = model.squared_distances(Rows::from_slice(&flat, 2)?)?;
+/// let narrow = [3.0f32, 4.0, 1.0, 2.0];
+/// let from_f32 = model.squared_distances(Rows::from_slice_f32(&narrow, 2)?)?;
+/// assert_eq!(from_slice, from_f32); // the values are exact in f32
+/// # Ok::<(), mvdist::Error>(())
+/// ```
+#[derive(Clone, Copy, Debug)]
+pub enum Rows<'a> {
+    /// Double-precision rows.
+    F64(ArrayView2<'a, f64>),
+    /// Single-precision rows.
+    F32(ArrayView2<'a, f32>),
+}
+
+impl<'a> Rows<'a> {
+    /// A row-major `f64` slice with `columns` columns.
+    ///
+    /// # Errors
+    /// As [`rows_from_slice`].
+    pub fn from_slice(data: &'a [f64], columns: usize) -> Result<Self> {
+        rows_from_slice(data, columns).map(Rows::F64)
+    }
+
+    /// A row-major `f32` slice with `columns` columns.
+    ///
+    /// # Errors
+    /// As [`rows_from_slice`].
+    pub fn from_slice_f32(data: &'a [f32], columns: usize) -> Result<Self> {
+        slice_shape(data.len(), columns)?;
+        Ok(Rows::F32(matrix_view(data, data.len() / columns, columns)))
+    }
+
+    /// Number of rows.
+    pub fn nrows(&self) -> usize {
+        match self {
+            Rows::F64(x) => x.nrows(),
+            Rows::F32(x) => x.nrows(),
+        }
+    }
+
+    /// Number of columns.
+    pub fn ncols(&self) -> usize {
+        match self {
+            Rows::F64(x) => x.ncols(),
+            Rows::F32(x) => x.ncols(),
+        }
+    }
+
+    /// Runs `f` on the rows as `f64`: the view itself, or a widened copy of
+    /// single-precision rows.
+    pub(crate) fn with_f64<R>(self, f: impl FnOnce(ArrayView2<'_, f64>) -> R) -> R {
+        match self {
+            Rows::F64(x) => f(x),
+            Rows::F32(x) => {
+                let wide: Array2<f64> = x.mapv(f64::from);
+                f(wide.view())
+            }
+        }
+    }
+}
+
+impl<'a> From<ArrayView2<'a, f64>> for Rows<'a> {
+    fn from(x: ArrayView2<'a, f64>) -> Self {
+        Rows::F64(x)
+    }
+}
+
+impl<'a> From<ArrayView2<'a, f32>> for Rows<'a> {
+    fn from(x: ArrayView2<'a, f32>) -> Self {
+        Rows::F32(x)
+    }
+}
+
+impl<'a> From<&'a Array2<f64>> for Rows<'a> {
+    fn from(x: &'a Array2<f64>) -> Self {
+        Rows::F64(x.view())
+    }
+}
+
+impl<'a> From<&'a Array2<f32>> for Rows<'a> {
+    fn from(x: &'a Array2<f32>) -> Self {
+        Rows::F32(x.view())
+    }
+}
+
+fn slice_shape(len: usize, columns: usize) -> Result<()> {
+    if columns == 0 {
+        return Err(Error::Empty { what: "columns" });
+    }
+    if !len.is_multiple_of(columns) {
+        return Err(Error::ShapeMismatch {
+            what: "slice length (a multiple of the column count)",
+            expected: len.div_ceil(columns) * columns,
+            found: len,
+        });
+    }
+    Ok(())
+}
 
 /// Views a row-major slice as a matrix with `columns` columns, without
 /// copying.
@@ -23,16 +140,7 @@ use ndarray::ArrayView2;
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 pub fn rows_from_slice(data: &[f64], columns: usize) -> Result<ArrayView2<'_, f64>> {
-    if columns == 0 {
-        return Err(Error::Empty { what: "columns" });
-    }
-    if !data.len().is_multiple_of(columns) {
-        return Err(Error::ShapeMismatch {
-            what: "slice length (a multiple of the column count)",
-            expected: data.len().div_ceil(columns) * columns,
-            found: data.len(),
-        });
-    }
+    slice_shape(data.len(), columns)?;
     ArrayView2::from_shape((data.len() / columns, columns), data).map_err(|_| {
         Error::ShapeMismatch {
             what: "slice length",
@@ -47,7 +155,7 @@ pub fn rows_from_slice(data: &[f64], columns: usize) -> Result<ArrayView2<'_, f6
 pub(crate) fn check_row(values: &[f64], p: usize, row: usize) -> Result<()> {
     if values.len() != p {
         return Err(Error::ShapeMismatch {
-            what: "row length (number of variables)",
+            what: "row length (number of columns)",
             expected: p,
             found: values.len(),
         });
@@ -85,7 +193,7 @@ pub(crate) fn check_finite(x: ArrayView2<'_, f64>) -> Result<()> {
 pub(crate) fn check_columns(x: ArrayView2<'_, f64>, p: usize) -> Result<()> {
     if x.ncols() != p {
         return Err(Error::ShapeMismatch {
-            what: "number of columns (variables)",
+            what: "number of columns",
             expected: p,
             found: x.ncols(),
         });

@@ -87,7 +87,7 @@ impl TryFrom<ContributionsData> for Contributions {
 pub(crate) fn check_permutation(perm: &[usize], p: usize) -> Result<()> {
     if perm.len() != p {
         return Err(Error::ShapeMismatch {
-            what: "order length (number of variables)",
+            what: "order length (number of columns)",
             expected: p,
             found: perm.len(),
         });

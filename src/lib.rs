@@ -104,18 +104,20 @@ pub mod moments;
 pub mod normality;
 pub mod robust;
 pub mod scatter;
+mod scorer;
 pub mod shrinkage;
 pub mod whitening;
 
 pub use ndarray;
 
 pub use calibration::{Adjustment, Reference, RowOrigin};
-pub use error::{Error, Result};
+pub use error::{Error, ErrorKind, Result};
 pub use estimate::{Estimate, FitMethod};
 pub use explain::{ContributionOrder, Contributions};
 pub use model::{DistanceModel, RowScore, Scores};
 pub use moments::{Divisor, MomentAccumulator};
 pub use scatter::Scatter;
+pub use scorer::Scorer;
 pub use whitening::{Whitener, WhiteningKind};
 
 // Every model and fitted-estimate type can be shared across threads: a
@@ -124,6 +126,8 @@ pub use whitening::{Whitener, WhiteningKind};
 const _: () = {
     const fn shared<T: Send + Sync>() {}
     shared::<DistanceModel>();
+    shared::<Scorer>();
+    shared::<ErrorKind>();
     shared::<Scatter>();
     shared::<Estimate>();
     shared::<Reference>();

@@ -1,7 +1,7 @@
 //! The fitted distance model: location, scatter, sample size and origin.
 
 use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
-use crate::data::{check_columns, check_row, check_row_finite, rows_from_slice};
+use crate::data::{check_row, check_row_finite, Rows};
 use crate::error::{Error, Result};
 use crate::estimate::{Estimate, FitMethod, McdStage, OasFormula, ShrinkageTarget};
 use crate::explain::{contributions, ContributionOrder, Contributions};
@@ -11,7 +11,7 @@ use crate::robust::{McdFit, McdOptions};
 use crate::scatter::Scatter;
 use crate::shrinkage::ShrinkageFit;
 use crate::whitening::{Whitener, WhiteningKind};
-use ndarray::{Array1, ArrayView2};
+use ndarray::ArrayView2;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
@@ -204,23 +204,20 @@ impl DistanceModel {
     /// [`Error::Empty`]; [`Error::NonFinite`] naming the row and column;
     /// [`Error::TooFewRows`] unless `n > p`; [`Error::ZeroVariance`] or
     /// [`Error::Collinear`] naming the column.
-    pub fn fit(rows: ArrayView2<'_, f64>) -> Result<Self> {
+    pub fn fit<'a>(rows: impl Into<Rows<'a>>) -> Result<Self> {
         Self::fit_with_divisor(rows, Divisor::Unbiased)
-    }
-
-    /// As [`fit`](Self::fit), on a row-major slice with `columns` columns.
-    ///
-    /// # Errors
-    /// As [`fit`](Self::fit) and [`rows_from_slice`].
-    pub fn fit_slice(data: &[f64], columns: usize) -> Result<Self> {
-        Self::fit(rows_from_slice(data, columns)?)
     }
 
     /// Fits the sample mean and covariance with the given divisor.
     ///
     /// # Errors
     /// As [`fit`](Self::fit).
-    pub fn fit_with_divisor(rows: ArrayView2<'_, f64>, divisor: Divisor) -> Result<Self> {
+    pub fn fit_with_divisor<'a>(rows: impl Into<Rows<'a>>, divisor: Divisor) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| Self::fit_classical(rows, divisor))
+    }
+
+    fn fit_classical(rows: ArrayView2<'_, f64>, divisor: Divisor) -> Result<Self> {
         if rows.ncols() == 0 {
             return Err(Error::Empty { what: "columns" });
         }
@@ -238,7 +235,16 @@ impl DistanceModel {
     /// # Errors
     /// As [`fit`](Self::fit), and those of
     /// [`MomentAccumulator::from_weighted_rows`].
-    pub fn fit_weighted(
+    pub fn fit_weighted<'a>(
+        rows: impl Into<Rows<'a>>,
+        weights: &[f64],
+        divisor: Divisor,
+    ) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| Self::fit_weighted_f64(rows, weights, divisor))
+    }
+
+    fn fit_weighted_f64(
         rows: ArrayView2<'_, f64>,
         weights: &[f64],
         divisor: Divisor,
@@ -274,8 +280,9 @@ impl DistanceModel {
     /// assert!(model.squared_distance(&[1.0, 2.0, 1.0, 2.5])? > 0.0);
     /// # Ok::<(), mvdist::Error>(())
     /// ```
-    pub fn fit_ledoit_wolf(rows: ArrayView2<'_, f64>) -> Result<Self> {
-        crate::shrinkage::ledoit_wolf(rows)?.into_model()
+    pub fn fit_ledoit_wolf<'a>(rows: impl Into<Rows<'a>>) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| crate::shrinkage::ledoit_wolf(rows)?.into_model())
     }
 
     /// Fits the sample mean and the OAS shrinkage covariance with the given
@@ -293,8 +300,9 @@ impl DistanceModel {
     /// assert!(matches!(model.fit_method(), FitMethod::Oas { .. }));
     /// # Ok::<(), mvdist::Error>(())
     /// ```
-    pub fn fit_oas(rows: ArrayView2<'_, f64>, formula: OasFormula) -> Result<Self> {
-        crate::shrinkage::oas(rows, formula)?.into_model()
+    pub fn fit_oas<'a>(rows: impl Into<Rows<'a>>, formula: OasFormula) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| crate::shrinkage::oas(rows, formula)?.into_model())
     }
 
     /// Fits the sample mean and `(1 − ρ) S + ρ T` with a caller-chosen
@@ -312,12 +320,13 @@ impl DistanceModel {
     /// assert_eq!(model.dim(), 2);
     /// # Ok::<(), mvdist::Error>(())
     /// ```
-    pub fn fit_shrunk(
-        rows: ArrayView2<'_, f64>,
+    pub fn fit_shrunk<'a>(
+        rows: impl Into<Rows<'a>>,
         intensity: f64,
         target: ShrinkageTarget,
     ) -> Result<Self> {
-        crate::shrinkage::shrink(rows, intensity, target)?.into_model()
+        rows.into()
+            .with_f64(|rows| crate::shrinkage::shrink(rows, intensity, target)?.into_model())
     }
 
     /// Fits the one-step reweighted minimum covariance determinant estimate
@@ -343,8 +352,9 @@ impl DistanceModel {
     /// assert!(model.squared_distance(&[70.0, 70.0])? > cutoff);
     /// # Ok::<(), mvdist::Error>(())
     /// ```
-    pub fn fit_mcd(rows: ArrayView2<'_, f64>, settings: &McdOptions) -> Result<Self> {
-        crate::robust::minimum_covariance_determinant(rows, settings)?.model()
+    pub fn fit_mcd<'a>(rows: impl Into<Rows<'a>>, options: &McdOptions) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| crate::robust::minimum_covariance_determinant(rows, options)?.model())
     }
 
     /// The model of the rows summarized by an accumulator.
@@ -484,7 +494,7 @@ impl DistanceModel {
         let p = self.dim();
         if x.len() != p {
             return Err(Error::ShapeMismatch {
-                what: "row length (number of variables)",
+                what: "row length (number of columns)",
                 expected: p,
                 found: x.len(),
             });
@@ -534,23 +544,14 @@ impl DistanceModel {
 
     /// Squared distances of every row, in parallel for large inputs.
     ///
+    /// `rows` is an ndarray view (any layout) or a row-major slice with a
+    /// column count ([`Rows::from_slice`]), of `f64` or `f32` values.
+    ///
     /// # Errors
     /// [`Error::ShapeMismatch`]; [`Error::NonFinite`] or [`Error::Overflow`]
     /// naming the first offending row.
-    pub fn squared_distances(&self, rows: ArrayView2<'_, f64>) -> Result<Array1<f64>> {
-        let mut out = vec![0.0; rows.nrows()];
-        self.squared_distances_into(rows, &mut out)?;
-        Ok(Array1::from(out))
-    }
-
-    /// As [`squared_distances`](Self::squared_distances), on a row-major
-    /// slice of `p` columns.
-    ///
-    /// # Errors
-    /// As [`squared_distances`](Self::squared_distances) and
-    /// [`rows_from_slice`].
-    pub fn squared_distances_slice(&self, data: &[f64]) -> Result<Vec<f64>> {
-        let rows = rows_from_slice(data, self.dim())?;
+    pub fn squared_distances<'a>(&self, rows: impl Into<Rows<'a>>) -> Result<Vec<f64>> {
+        let rows = rows.into();
         let mut out = vec![0.0; rows.nrows()];
         self.squared_distances_into(rows, &mut out)?;
         Ok(out)
@@ -562,16 +563,25 @@ impl DistanceModel {
     /// # Errors
     /// As [`squared_distances`](Self::squared_distances);
     /// [`Error::ShapeMismatch`] if `out` has the wrong length.
-    pub fn squared_distances_into(&self, rows: ArrayView2<'_, f64>, out: &mut [f64]) -> Result<()> {
-        check_columns(rows, self.dim())?;
-        if out.len() != rows.nrows() {
+    pub fn squared_distances_into<'a>(
+        &self,
+        rows: impl Into<Rows<'a>>,
+        out: &mut [f64],
+    ) -> Result<()> {
+        let rows = rows.into();
+        if rows.ncols() != self.dim() {
             return Err(Error::ShapeMismatch {
-                what: "output length (one value per row)",
-                expected: rows.nrows(),
-                found: out.len(),
+                what: "number of columns",
+                expected: self.dim(),
+                found: rows.ncols(),
             });
         }
-        kernel::batch_squared_distances(self.scatter.whitening_factor(), &self.location, rows, out)
+        check_output(out.len(), rows.nrows())?;
+        let factor = self.scatter.whitening_factor();
+        match rows {
+            Rows::F64(x) => kernel::batch_squared_distances(factor, &self.location, x, out),
+            Rows::F32(x) => kernel::batch_squared_distances_f32(factor, &self.location, x, out),
+        }
     }
 
     /// The reference distribution for rows of the given origin, chosen by
@@ -651,29 +661,39 @@ impl DistanceModel {
     /// # Errors
     /// As [`squared_distances`](Self::squared_distances) and
     /// [`reference`](Self::reference).
-    pub fn score(&self, rows: ArrayView2<'_, f64>, origin: RowOrigin) -> Result<Scores> {
-        let reference = self.reference(origin)?;
-        let d2 = self.squared_distances(rows)?.to_vec();
-        let mut p_values = vec![0.0; d2.len()];
-        if d2.len() < 4096 {
-            for (p, &d) in p_values.iter_mut().zip(&d2) {
-                *p = reference.p_value(d);
-            }
-        } else {
-            p_values
-                .par_chunks_mut(1024)
-                .zip(d2.par_chunks(1024))
-                .for_each(|(p, d)| {
-                    for (pv, &dv) in p.iter_mut().zip(d) {
-                        *pv = reference.p_value(dv);
-                    }
-                });
-        }
+    pub fn score<'a>(&self, rows: impl Into<Rows<'a>>, origin: RowOrigin) -> Result<Scores> {
+        let rows = rows.into();
+        let mut squared_distances = vec![0.0; rows.nrows()];
+        let mut p_values = vec![0.0; rows.nrows()];
+        let reference = self.score_into(rows, origin, &mut squared_distances, &mut p_values)?;
         Ok(Scores {
-            squared_distances: d2,
+            squared_distances,
             p_values,
             reference,
         })
+    }
+
+    /// As [`score`](Self::score), writing squared distances and p-values
+    /// into caller-owned buffers (one value per row each); returns the
+    /// reference used. For flags against a fixed level without p-values,
+    /// prepare a [`Scorer`](crate::Scorer).
+    ///
+    /// # Errors
+    /// As [`score`](Self::score); [`Error::ShapeMismatch`] if a buffer has
+    /// the wrong length.
+    pub fn score_into<'a>(
+        &self,
+        rows: impl Into<Rows<'a>>,
+        origin: RowOrigin,
+        squared_distances: &mut [f64],
+        p_values: &mut [f64],
+    ) -> Result<Reference> {
+        let rows = rows.into();
+        let reference = self.reference(origin)?;
+        check_output(p_values.len(), rows.nrows())?;
+        self.squared_distances_into(rows, squared_distances)?;
+        p_values_into(&reference, squared_distances, p_values);
+        Ok(reference)
     }
 
     /// Scores one row: squared distance, p-value, and whether
@@ -713,6 +733,36 @@ impl DistanceModel {
     /// As [`Whitener::new`].
     pub fn whitener(&self, kind: WhiteningKind) -> Result<Whitener> {
         Whitener::new(&self.location, &self.scatter, kind)
+    }
+}
+
+/// An output buffer must hold one value per row.
+pub(crate) fn check_output(len: usize, rows: usize) -> Result<()> {
+    if len != rows {
+        return Err(Error::ShapeMismatch {
+            what: "output length (one value per row)",
+            expected: rows,
+            found: len,
+        });
+    }
+    Ok(())
+}
+
+/// `p_values[i] = reference.p_value(d2[i])`, in parallel for long batches.
+pub(crate) fn p_values_into(reference: &Reference, d2: &[f64], p_values: &mut [f64]) {
+    if d2.len() < 4096 {
+        for (p, &d) in p_values.iter_mut().zip(d2) {
+            *p = reference.p_value(d);
+        }
+    } else {
+        p_values
+            .par_chunks_mut(1024)
+            .zip(d2.par_chunks(1024))
+            .for_each(|(p, d)| {
+                for (pv, &dv) in p.iter_mut().zip(d) {
+                    *pv = reference.p_value(dv);
+                }
+            });
     }
 }
 

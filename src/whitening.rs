@@ -86,7 +86,7 @@ impl TryFrom<WhitenerData> for Whitener {
         let p = d.dim;
         if p == 0 {
             return Err(Error::Format {
-                reason: "a whitener needs at least one variable".into(),
+                reason: "a whitener needs at least one column".into(),
             });
         }
         let square = p.checked_mul(p).ok_or_else(|| Error::Format {

@@ -59,6 +59,17 @@ fn single_row_scoring_does_not_allocate() {
             }
         });
         assert_eq!(n, 0, "p = {p}: {n} allocations");
+        // The prepared scorer's single-row entry points. (Batches write
+        // into caller-owned buffers but take per-task kernel scratch.)
+        let scorer = mvdist::Scorer::new(model.clone(), RowOrigin::New, 0.01).unwrap();
+        let n = allocations_during(|| {
+            for _ in 0..1000 {
+                std::hint::black_box(scorer.flag_row(&row).unwrap());
+                std::hint::black_box(scorer.flag_row_f32(&row32).unwrap());
+                std::hint::black_box(scorer.score_row(&row).unwrap());
+            }
+        });
+        assert_eq!(n, 0, "scorer, p = {p}: {n} allocations");
     }
     // Larger p with caller-owned scratch.
     let x = rows(1000, 80);

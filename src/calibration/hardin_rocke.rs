@@ -48,10 +48,7 @@ use crate::error::{Error, Result};
 /// for `n` rows, `dim` variables and subset size `subset_size`.
 pub(crate) fn hardin_rocke_dof(n: usize, dim: usize, subset_size: usize) -> Result<f64> {
     if dim == 0 {
-        return Err(Error::invalid(
-            "dim",
-            "the number of variables must be at least 1",
-        ));
+        return Err(Error::invalid("dim", "at least one column is needed"));
     }
     if subset_size <= dim || subset_size > n {
         return Err(Error::invalid(

@@ -274,10 +274,7 @@ impl From<Reference> for Spec {
 
 fn at_least_one_variable(dim: usize) -> Result<()> {
     if dim == 0 {
-        return Err(Error::invalid(
-            "dim",
-            "the number of variables must be at least 1",
-        ));
+        return Err(Error::invalid("dim", "at least one column is needed"));
     }
     Ok(())
 }

@@ -235,7 +235,7 @@ impl<L> Classifier<L> {
     /// for a level not strictly between 0 and 1.
     pub fn predict_row_with(&self, x: &[f64], options: &PredictOptions) -> Result<Prediction> {
         let view = ArrayView2::from_shape((1, x.len()), x).map_err(|_| Error::ShapeMismatch {
-            what: "row length (number of variables)",
+            what: "row length (number of columns)",
             expected: self.dim,
             found: x.len(),
         })?;

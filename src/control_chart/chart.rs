@@ -107,7 +107,7 @@ impl TryFrom<ChartData> for ControlChart {
         if d.location.len() != p {
             return Err(Error::Format {
                 reason: format!(
-                    "the chart's location has {} values but its scatter has {p} variables",
+                    "the chart's location has {} values but its scatter has {p} columns",
                     d.location.len()
                 ),
             });
@@ -309,7 +309,7 @@ impl ControlChart {
         if let PhaseOneStart::ScreenWith { model, origin } = settings.start() {
             if model.dim() != p {
                 return Err(Error::ShapeMismatch {
-                    what: "start model variables (the data's columns)",
+                    what: "start model columns (the data's)",
                     expected: p,
                     found: model.dim(),
                 });
@@ -517,7 +517,7 @@ impl ControlChart {
     fn check_point(&self, point: &[f64]) -> Result<()> {
         if point.len() != self.dim() {
             return Err(Error::ShapeMismatch {
-                what: "point length (number of variables)",
+                what: "point length (number of columns)",
                 expected: self.dim(),
                 found: point.len(),
             });

@@ -83,7 +83,7 @@ pub fn term_count(p: usize, depth: usize) -> Option<usize> {
 fn check_point(scatter: &Scatter, centred: &[f64]) -> Result<()> {
     if centred.len() != scatter.dim() {
         return Err(Error::ShapeMismatch {
-            what: "point length (number of variables)",
+            what: "point length (number of columns)",
             expected: scatter.dim(),
             found: centred.len(),
         });
@@ -128,7 +128,7 @@ pub fn conditional_terms(
     let count = term_count(p, depth).filter(|&c| c <= MAX_TERMS).ok_or_else(|| {
         Error::invalid(
             "conditioning depth",
-            format!("depth {depth} with {p} variables gives more than {MAX_TERMS} terms; choose a smaller depth"),
+            format!("depth {depth} with {p} columns gives more than {MAX_TERMS} terms; choose a smaller depth"),
         )
     })?;
     let mut walk = SubsetWalk {

@@ -55,7 +55,7 @@ pub fn squared_distance(scatter: &Scatter, x: &[f64], y: &[f64]) -> Result<f64> 
     for v in [x, y] {
         if v.len() != p {
             return Err(Error::ShapeMismatch {
-                what: "point length (number of variables)",
+                what: "point length (number of columns)",
                 expected: p,
                 found: v.len(),
             });

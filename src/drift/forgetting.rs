@@ -40,7 +40,7 @@ impl ForgettingModel {
     /// outside `(0, 1]`.
     pub fn new(dim: usize, forgetting: f64) -> Result<Self> {
         if dim == 0 {
-            return Err(Error::Empty { what: "variables" });
+            return Err(Error::Empty { what: "columns" });
         }
         if !(forgetting > 0.0 && forgetting <= 1.0) {
             return Err(Error::invalid(

@@ -57,13 +57,13 @@ impl SlidingWindowModel {
     /// `capacity ≥ dim + 2` (needed for the new-row F reference).
     pub fn new(dim: usize, capacity: usize) -> Result<Self> {
         if dim == 0 {
-            return Err(Error::Empty { what: "variables" });
+            return Err(Error::Empty { what: "columns" });
         }
         if capacity < dim.saturating_add(2) {
             return Err(Error::invalid(
                 "window size",
                 format!(
-                    "{capacity} rows is too small for {dim} variables; use at least {}",
+                    "{capacity} rows is too small for {dim} columns; use at least {}",
                     dim + 2
                 ),
             ));

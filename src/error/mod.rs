@@ -3,7 +3,12 @@
 //! Every fallible function in mvdist returns [`Result<T>`](Result), whose
 //! error is [`Error`]. Each variant carries the position (row and column,
 //! both 0-based) and the reason, so that a caller can report the problem in
-//! its own terms, for example with the column's name.
+//! its own terms, for example with the column's name. [`Error::kind`] gives
+//! a fieldless [`ErrorKind`] that wrappers for other languages can map to
+//! their own error types and that stays stable across releases.
+//!
+//! Errors name a variable by its column: the 0-based position of the
+//! variable in the data the caller passed.
 
 use std::fmt;
 
@@ -16,7 +21,9 @@ pub type Result<T> = std::result::Result<T, Error>;
 /// Everything that can go wrong in mvdist.
 ///
 /// Rows and columns are 0-based indices into the data the caller passed.
-/// Columns are the variables; rows are observations.
+/// Columns are the variables; rows are observations. Messages say what
+/// is wrong and what to do next; [`kind`](Self::kind) is the stable part
+/// to branch on.
 ///
 /// # Example
 ///
@@ -61,29 +68,29 @@ pub enum Error {
         rows: usize,
         /// Rows needed at least.
         needed: usize,
-        /// Number of columns (variables).
+        /// Number of columns.
         columns: usize,
     },
-    /// A variable has zero (or non-positive) variance.
+    /// A column has zero (or non-positive) variance.
     ZeroVariance {
-        /// The constant variable.
+        /// The constant column.
         column: usize,
     },
-    /// A variable is (numerically) a linear combination of earlier ones:
-    /// its variance left after regressing it on the earlier variables is
-    /// a negligible fraction of its own variance.
+    /// A column is (numerically) a linear combination of earlier ones: its
+    /// variance left after regressing it on the earlier columns is a
+    /// negligible fraction of its own variance.
     Collinear {
-        /// The dependent variable.
+        /// The dependent column.
         column: usize,
-        /// Fraction of the variable's variance not explained by the earlier
-        /// variables (0 for an exact linear combination).
+        /// Fraction of the column's variance not explained by the earlier
+        /// columns (0 for an exact linear combination).
         residual_fraction: f64,
     },
     /// A scatter matrix is not positive definite and the failure is not a
     /// near-exact linear dependence (for example a negative variance, or an
     /// indefinite matrix supplied by the caller).
     NotPositiveDefinite {
-        /// The variable at which the Cholesky factorization failed.
+        /// The column at which the Cholesky factorization failed.
         column: usize,
     },
     /// A matrix that must be symmetric is not.
@@ -110,13 +117,18 @@ pub enum Error {
     },
     /// A file could not be read or written.
     Io {
-        /// The path and the operating system's reason.
+        /// The file.
+        path: String,
+        /// The operating system's kind of failure (not found, permission
+        /// denied, …), kept for callers that branch on it.
+        kind: std::io::ErrorKind,
+        /// The operating system's message.
         reason: String,
     },
     /// An exact fit: at least `h` rows (the minimum covariance determinant
     /// subset size) lie on one hyperplane, so the robust scatter is
     /// singular. The hyperplane and the rows on it are reported; the usual
-    /// remedy is to drop one of the variables involved (the largest
+    /// remedy is to drop one of the columns involved (the largest
     /// coefficients) or to check why the rows are tied.
     ExactFit {
         /// The hyperplane `aᵀx = b` and the rows on it.
@@ -154,7 +166,7 @@ pub enum Error {
         /// The row with the unknown label.
         row: usize,
     },
-    /// A problem with one group's rows (for example, a variable constant
+    /// A problem with one group's rows (for example, a column constant
     /// within the group makes its own scatter singular).
     InGroup {
         /// The group (0-based, in order of first appearance of its label).
@@ -164,7 +176,122 @@ pub enum Error {
     },
 }
 
+/// The kind of an [`Error`], without its details: one variant per variant
+/// of `Error`, for code (and bindings) that branch on the kind of failure.
+/// New kinds may be added; existing ones keep their names.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum ErrorKind {
+    /// [`Error::Empty`].
+    Empty,
+    /// [`Error::NonFinite`].
+    NonFinite,
+    /// [`Error::ShapeMismatch`].
+    ShapeMismatch,
+    /// [`Error::TooFewRows`].
+    TooFewRows,
+    /// [`Error::ZeroVariance`].
+    ZeroVariance,
+    /// [`Error::Collinear`].
+    Collinear,
+    /// [`Error::NotPositiveDefinite`].
+    NotPositiveDefinite,
+    /// [`Error::NotSymmetric`].
+    NotSymmetric,
+    /// [`Error::Overflow`].
+    Overflow,
+    /// [`Error::InvalidParameter`].
+    InvalidParameter,
+    /// [`Error::Io`].
+    Io,
+    /// [`Error::ExactFit`].
+    ExactFit,
+    /// [`Error::NotRepresentable`].
+    NotRepresentable,
+    /// [`Error::Format`].
+    Format,
+    /// [`Error::TooFewGroups`].
+    TooFewGroups,
+    /// [`Error::SmallGroup`].
+    SmallGroup,
+    /// [`Error::UnknownGroup`].
+    UnknownGroup,
+    /// [`Error::InGroup`].
+    InGroup,
+}
+
+impl ErrorKind {
+    /// A stable snake_case name (`"non_finite"`, `"too_few_rows"`, …) for
+    /// logs and for error codes in other languages.
+    pub fn name(self) -> &'static str {
+        match self {
+            ErrorKind::Empty => "empty",
+            ErrorKind::NonFinite => "non_finite",
+            ErrorKind::ShapeMismatch => "shape_mismatch",
+            ErrorKind::TooFewRows => "too_few_rows",
+            ErrorKind::ZeroVariance => "zero_variance",
+            ErrorKind::Collinear => "collinear",
+            ErrorKind::NotPositiveDefinite => "not_positive_definite",
+            ErrorKind::NotSymmetric => "not_symmetric",
+            ErrorKind::Overflow => "overflow",
+            ErrorKind::InvalidParameter => "invalid_parameter",
+            ErrorKind::Io => "io",
+            ErrorKind::ExactFit => "exact_fit",
+            ErrorKind::NotRepresentable => "not_representable",
+            ErrorKind::Format => "format",
+            ErrorKind::TooFewGroups => "too_few_groups",
+            ErrorKind::SmallGroup => "small_group",
+            ErrorKind::UnknownGroup => "unknown_group",
+            ErrorKind::InGroup => "in_group",
+        }
+    }
+}
+
 impl Error {
+    /// The kind of this error, without its details.
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{DistanceModel, ErrorKind};
+    /// use ndarray::array;
+    ///
+    /// let rows = array![[1.0, f64::NAN], [2.0, 3.0], [4.0, 1.0]];
+    /// let error = DistanceModel::fit(rows.view()).unwrap_err();
+    /// assert_eq!(error.kind(), ErrorKind::NonFinite);
+    /// assert_eq!(error.kind().name(), "non_finite");
+    /// ```
+    pub fn kind(&self) -> ErrorKind {
+        match self {
+            Error::Empty { .. } => ErrorKind::Empty,
+            Error::NonFinite { .. } => ErrorKind::NonFinite,
+            Error::ShapeMismatch { .. } => ErrorKind::ShapeMismatch,
+            Error::TooFewRows { .. } => ErrorKind::TooFewRows,
+            Error::ZeroVariance { .. } => ErrorKind::ZeroVariance,
+            Error::Collinear { .. } => ErrorKind::Collinear,
+            Error::NotPositiveDefinite { .. } => ErrorKind::NotPositiveDefinite,
+            Error::NotSymmetric { .. } => ErrorKind::NotSymmetric,
+            Error::Overflow { .. } => ErrorKind::Overflow,
+            Error::InvalidParameter { .. } => ErrorKind::InvalidParameter,
+            Error::Io { .. } => ErrorKind::Io,
+            Error::ExactFit { .. } => ErrorKind::ExactFit,
+            Error::NotRepresentable { .. } => ErrorKind::NotRepresentable,
+            Error::Format { .. } => ErrorKind::Format,
+            Error::TooFewGroups { .. } => ErrorKind::TooFewGroups,
+            Error::SmallGroup { .. } => ErrorKind::SmallGroup,
+            Error::UnknownGroup { .. } => ErrorKind::UnknownGroup,
+            Error::InGroup { .. } => ErrorKind::InGroup,
+        }
+    }
+
+    /// The error of a file operation on `path`.
+    pub(crate) fn io(path: &std::path::Path, error: &std::io::Error) -> Self {
+        Error::Io {
+            path: path.display().to_string(),
+            kind: error.kind(),
+            reason: error.to_string(),
+        }
+    }
+
     pub(crate) fn in_group(group: usize) -> impl Fn(Error) -> Error {
         move |error| Error::InGroup {
             group,
@@ -203,7 +330,7 @@ impl fmt::Display for Error {
             ),
             Error::ZeroVariance { column } => write!(
                 f,
-                "column {column} has zero variance (it is constant); drop it from the variables"
+                "column {column} has zero variance (it is constant); drop the column"
             ),
             Error::Collinear {
                 column,
@@ -231,7 +358,7 @@ impl fmt::Display for Error {
             Error::InvalidParameter { name, reason } => write!(f, "invalid {name}: {reason}"),
             Error::ExactFit { hyperplane } => write!(
                 f,
-                "exact fit: {} rows lie on the hyperplane {} (at least {} are needed for a robust fit); the robust scatter is singular — drop a variable involved or check the tied rows",
+                "exact fit: {} rows lie on the hyperplane {} (at least {} are needed for a robust fit); the robust scatter is singular — drop a column involved or check the tied rows",
                 hyperplane.rows().len(),
                 hyperplane,
                 hyperplane.subset_size()
@@ -241,7 +368,10 @@ impl fmt::Display for Error {
                 f,
                 "{reason} is not representable as a 64-bit float; choose an alpha less close to 0 or 1, or compare p-values instead of cutoffs"
             ),
-            Error::Io { reason } => write!(f, "input/output error: {reason}"),
+            Error::Io { path, reason, .. } => write!(
+                f,
+                "{path}: {reason}; check that the path exists and is readable (or writable)"
+            ),
             Error::TooFewGroups { found } => write!(
                 f,
                 "the labels name {found} group(s); classification needs at least two"
@@ -259,4 +389,31 @@ impl fmt::Display for Error {
     }
 }
 
-impl std::error::Error for Error {}
+impl std::error::Error for Error {
+    /// The error within the group for [`Error::InGroup`]; `None` otherwise.
+    fn source(&self) -> Option<&(dyn std::error::Error + 'static)> {
+        match self {
+            Error::InGroup { cause, .. } => Some(cause.as_ref()),
+            _ => None,
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::error::Error as _;
+
+    #[test]
+    fn nested_causes_are_sources_and_kinds_are_stable() {
+        let inner = Error::ZeroVariance { column: 2 };
+        let outer = Error::in_group(1)(inner.clone());
+        assert_eq!(outer.kind(), ErrorKind::InGroup);
+        assert_eq!(outer.kind().name(), "in_group");
+        let source = outer.source().and_then(|s| s.downcast_ref::<Error>());
+        assert_eq!(source, Some(&inner));
+        assert!(inner.source().is_none());
+        assert_eq!(inner.kind().name(), "zero_variance");
+        assert!(outer.to_string().contains("in group 1: column 2"));
+    }
+}

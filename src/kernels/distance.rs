@@ -265,6 +265,49 @@ pub(crate) fn batch_squared_distances(
     Ok(())
 }
 
+/// As [`batch_squared_distances`] for single-precision rows: each task
+/// widens its block of rows to `f64` (a buffer reused across blocks) and
+/// runs the same kernel, so results equal those of the widened matrix.
+pub(crate) fn batch_squared_distances_f32(
+    factor: Factor<'_>,
+    mu: &[f64],
+    x: ArrayView2<'_, f32>,
+    out: &mut [f64],
+) -> Result<()> {
+    let w = factor.w;
+    let diagonal = factor.diagonal;
+    let n = x.nrows();
+    let p = mu.len();
+    let run =
+        |start: usize, chunk: &mut [f64], buf: &mut Vec<[f64; LANES]>, wide: &mut Vec<f64>| {
+            let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
+            wide.clear();
+            wide.extend(rows.iter().map(|&v| f64::from(v)));
+            let view = crate::data::matrix_view(wide, chunk.len(), p);
+            block_dispatch(w, mu, diagonal, view, chunk, buf);
+        };
+    if n * p < SEQUENTIAL_BELOW {
+        run(0, out, &mut Vec::new(), &mut Vec::new());
+    } else {
+        out.par_chunks_mut(TASK_ROWS).enumerate().for_each_init(
+            || (Vec::new(), Vec::new()),
+            |(buf, wide), (task, chunk)| run(task * TASK_ROWS, chunk, buf, wide),
+        );
+    }
+    if let Some(row) = out.iter().position(|v| !v.is_finite()) {
+        let r = x.row(row);
+        return Err(match r.iter().position(|v| !v.is_finite()) {
+            Some(column) => Error::NonFinite {
+                row,
+                column,
+                value: f64::from(r[column]),
+            },
+            None => Error::Overflow { row },
+        });
+    }
+    Ok(())
+}
+
 /// Why row `row` has a non-finite distance: a non-finite input, or overflow.
 pub(crate) fn non_finite_cause(x: ArrayView2<'_, f64>, row: usize) -> Error {
     let r = x.row(row);

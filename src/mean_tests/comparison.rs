@@ -133,7 +133,7 @@ impl TryFrom<ComparisonData> for MeanComparison {
         }
         if p == 0 {
             return Err(Error::Format {
-                reason: "a mean comparison needs at least one variable".into(),
+                reason: "a mean comparison needs at least one column".into(),
             });
         }
         Self::from_parts(ComparisonParts {

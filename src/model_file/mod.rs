@@ -195,9 +195,7 @@ impl ModelFile {
     /// [`Error::Io`] if the file cannot be read; otherwise as
     /// [`from_any`](Self::from_any).
     pub fn load(path: &Path) -> Result<Self> {
-        let bytes = std::fs::read(path).map_err(|e| Error::Io {
-            reason: format!("{}: {e}", path.display()),
-        })?;
+        let bytes = std::fs::read(path).map_err(|e| Error::io(path, &e))?;
         Self::from_any(&bytes)
     }
 
@@ -213,11 +211,11 @@ impl ModelFile {
         } else {
             (self.to_json() + "\n").into_bytes()
         };
-        let io = |e: std::io::Error| Error::Io {
-            reason: format!("{}: {e}", path.display()),
-        };
+        let io = |e: std::io::Error| Error::io(path, &e);
         let name = path.file_name().ok_or_else(|| Error::Io {
-            reason: format!("{}: not a file name", path.display()),
+            path: path.display().to_string(),
+            kind: std::io::ErrorKind::InvalidInput,
+            reason: "not a file name".into(),
         })?;
         let temp = path.with_file_name(format!(
             ".{}.partial-{}",

@@ -116,7 +116,7 @@ impl MomentAccumulator {
     /// [`Error::Empty`] if `dim` is 0.
     pub fn new(dim: usize) -> Result<Self> {
         if dim == 0 {
-            return Err(Error::Empty { what: "variables" });
+            return Err(Error::Empty { what: "columns" });
         }
         Ok(Self::empty(dim))
     }

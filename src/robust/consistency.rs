@@ -42,10 +42,7 @@ use crate::error::{Error, Result};
 /// ```
 pub fn consistency_factor(dim: usize, fraction: f64) -> Result<f64> {
     if dim == 0 {
-        return Err(Error::invalid(
-            "dim",
-            "the number of variables must be at least 1",
-        ));
+        return Err(Error::invalid("dim", "at least one column is needed"));
     }
     if !(fraction > 0.0 && fraction <= 1.0) {
         return Err(Error::invalid(

@@ -249,7 +249,7 @@ impl McdOptions {
             return Err(Error::invalid(
                 "support fraction",
                 format!(
-                    "{:?} gives h = {h} rows, outside [{lowest}, {n}] for n = {n} rows and p = {p} variables",
+                    "{:?} gives h = {h} rows, outside [{lowest}, {n}] for n = {n} rows and p = {p} columns",
                     self.support_fraction
                 ),
             ));

@@ -131,7 +131,7 @@ impl Scatter {
     /// tolerance is not in `[0, 1)`.
     pub fn with_collinearity_tolerance(data: &[f64], dim: usize, tolerance: f64) -> Result<Self> {
         if dim == 0 {
-            return Err(Error::Empty { what: "variables" });
+            return Err(Error::Empty { what: "columns" });
         }
         if !(0.0..1.0).contains(&tolerance) {
             return Err(Error::invalid(
@@ -216,7 +216,7 @@ impl Scatter {
     pub fn diagonal(variances: &[f64]) -> Result<Self> {
         let p = variances.len();
         if p == 0 {
-            return Err(Error::Empty { what: "variables" });
+            return Err(Error::Empty { what: "columns" });
         }
         let mut m = vec![0.0; p * p];
         for (j, &v) in variances.iter().enumerate() {
@@ -374,7 +374,7 @@ impl Scatter {
     fn check_vector(&self, c: &[f64]) -> Result<()> {
         if c.len() != self.dim {
             return Err(Error::ShapeMismatch {
-                what: "vector length (number of variables)",
+                what: "vector length (number of columns)",
                 expected: self.dim,
                 found: c.len(),
             });

@@ -21,6 +21,7 @@ const LAYERS: &[(&str, &[&str])] = &[
             "whitening",
             "distance",
             "model",
+            "scorer",
             "drift",
             "model_file",
         ],
@@ -34,6 +35,7 @@ const LAYERS: &[(&str, &[&str])] = &[
 /// Names re-exported at the crate root, and the module that defines them.
 const ROOT_NAMES: &[(&str, &str)] = &[
     ("Error", "error"),
+    ("ErrorKind", "error"),
     ("Result", "error"),
     ("Hyperplane", "error"),
     ("Scatter", "scatter"),
@@ -51,6 +53,7 @@ const ROOT_NAMES: &[(&str, &str)] = &[
     ("DistanceModel", "model"),
     ("RowScore", "model"),
     ("Scores", "model"),
+    ("Scorer", "scorer"),
 ];
 
 fn layer_of(module: &str) -> Option<usize> {

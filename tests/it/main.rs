@@ -24,3 +24,4 @@ mod reference_checks;
 mod robust_calibration;
 mod robust_properties;
 mod robust_reference;
+mod scorer;

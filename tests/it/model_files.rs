@@ -31,9 +31,12 @@ fn both_forms_round_trip_exactly() {
         file.save(&path, binary).unwrap();
         assert_eq!(ModelFile::load(&path).unwrap(), file);
     }
+    // The operating system's kind of failure is kept, not flattened.
+    let missing = ModelFile::load(&dir.path().join("missing")).unwrap_err();
+    assert_eq!(missing.kind(), mvdist::ErrorKind::Io);
     assert!(matches!(
-        ModelFile::load(&dir.path().join("missing")),
-        Err(mvdist::Error::Io { .. })
+        missing,
+        mvdist::Error::Io { kind: std::io::ErrorKind::NotFound, ref path, .. } if path.ends_with("missing")
     ));
 }
 

@@ -283,8 +283,8 @@ proptest! {
             let _ = DistanceModel::fit_with_divisor(x.view(), divisor);
             let _ = DistanceModel::fit_weighted(x.view(), &weights, divisor);
         }
-        let _ = DistanceModel::fit_slice(&flat, p);
-        let _ = DistanceModel::fit_slice(&flat, p + 1);
+        let _ = mvdist::data::Rows::from_slice(&flat, p).and_then(DistanceModel::fit);
+        let _ = mvdist::data::Rows::from_slice(&flat, p + 1).and_then(DistanceModel::fit);
         let _ = mvdist::data::rows_from_slice(&flat, 0);
 
         if let Ok(model) = DistanceModel::fit(x.view()) {

@@ -117,7 +117,9 @@ pub fn number_field(v: f64) -> String {
 /// the error.
 pub fn load_model_file(path: &Path) -> Result<ModelFile, CliError> {
     ModelFile::load(path).map_err(|e| match e {
-        mvdist::Error::Io { reason } => CliError(format!("cannot read the model file {reason}")),
+        mvdist::Error::Io { path, reason, .. } => {
+            CliError(format!("cannot read the model file {path}: {reason}"))
+        }
         other => CliError(format!("{}: {other}", path.display())),
     })
 }
