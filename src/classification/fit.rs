@@ -46,7 +46,8 @@ pub enum Rule {
 /// let equal: Priors<&str> = Priors::Equal;
 /// assert_eq!(equal, Priors::Equal);
 /// ```
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq, serde::Serialize, serde::Deserialize)]
+#[serde(rename_all = "snake_case")]
 pub enum Priors<L> {
     /// `π_g = 1/G` for `G` groups.
     Equal,
@@ -165,6 +166,10 @@ pub(crate) enum PriorKind {
 /// ```
 #[derive(Clone, Debug)]
 pub struct Classifier<L> {
+    /// What the classifier was fitted from, kept so that it can be saved
+    /// and rebuilt (see `file.rs`).
+    pub(crate) moments: GroupMoments<L>,
+    pub(crate) prior_spec: Priors<L>,
     pub(crate) labels: Vec<L>,
     pub(crate) index: HashMap<L, usize>,
     pub(crate) counts: Vec<usize>,
@@ -233,7 +238,17 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
         }
         let p = groups[0].dim();
         let counts: Vec<usize> = groups.iter().map(|a| a.count() as usize).collect();
-        let n: usize = counts.iter().sum();
+        let n = counts
+            .iter()
+            .try_fold(0usize, |t, &c| t.checked_add(c))
+            .ok_or_else(|| Error::invalid("group moments", "the row counts overflow"))?;
+        if let Some(g) = groups.iter().position(|a| a.dim() != p) {
+            return Err(Error::in_group(g)(Error::ShapeMismatch {
+                what: "number of columns (the first group's)",
+                expected: p,
+                found: groups[g].dim(),
+            }));
+        }
         let index: HashMap<L, usize> = labels
             .iter()
             .enumerate()
@@ -313,6 +328,8 @@ impl<L: Eq + Hash + Clone> Classifier<L> {
             return Err(Error::Overflow { row: 0 });
         }
         Ok(Classifier {
+            moments: moments.clone(),
+            prior_spec: options.priors.clone(),
             labels,
             index,
             counts,

@@ -58,6 +58,7 @@
 
 mod confusion;
 mod discriminant;
+mod file;
 mod fit;
 mod kernel;
 mod leave_one_out;
@@ -65,6 +66,7 @@ mod predict;
 
 pub use confusion::ConfusionMatrix;
 pub use discriminant::DiscriminantDirections;
+pub use file::CLASSIFIER_FORMAT_VERSION;
 pub use fit::{Classifier, ClassifierOptions, Priors, Rule};
 pub use leave_one_out::LeaveOneOut;
 pub use predict::{PredictOptions, Prediction, Predictions};

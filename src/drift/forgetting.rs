@@ -1,13 +1,14 @@
 //! Exponential forgetting with an incrementally updated Cholesky factor.
 
 use super::factor::TrackedFactor;
-use super::DEFAULT_REFACTOR_EVERY;
+use super::{check_drift_format, DEFAULT_REFACTOR_EVERY, DRIFT_FORMAT_VERSION, FORMAT_NAME};
 use crate::calibration::{Reference, RowOrigin};
 use crate::data::check_row;
 use crate::error::{Error, Result};
 use crate::estimate::FitMethod;
 use crate::model::{DistanceModel, RowScore};
 use crate::scatter::Scatter;
+use serde::{Deserialize, Serialize};
 
 /// Location and scatter under exponential forgetting, updated row by row in
 /// `O(p²)`; see the [module documentation](super).
@@ -15,7 +16,13 @@ use crate::scatter::Scatter;
 /// The covariance is `M / D` with the reliability-weight denominator
 /// `D = W − Σw²/W` (`W = Σ w`, weights `λᵏ`); the effective number of rows
 /// is `W²/Σw²`, tending to `(1+λ)/(1−λ)`.
-#[derive(Clone, Debug)]
+///
+/// Serializable, versioned (`format`, `format_version`): the saved state is
+/// the forgetting factor, the weights, the mean and the co-moment matrix;
+/// loading checks them and refactorizes, so scoring resumes where it
+/// stopped.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+#[serde(try_from = "ForgettingData", into = "ForgettingData")]
 pub struct ForgettingModel {
     p: usize,
     forgetting: f64,
@@ -48,6 +55,7 @@ impl ForgettingModel {
                 format!("{forgetting} is not in (0, 1]"),
             ));
         }
+        let comoment = super::zeroed(dim.checked_mul(dim), "number of columns")?;
         Ok(ForgettingModel {
             p: dim,
             forgetting,
@@ -55,7 +63,7 @@ impl ForgettingModel {
             weight_sum: 0.0,
             weight_sq_sum: 0.0,
             mean: vec![0.0; dim],
-            comoment: vec![0.0; dim * dim],
+            comoment,
             factor: TrackedFactor::zeros(dim),
             factor_ready: false,
             since_refactor: 0,
@@ -120,10 +128,12 @@ impl ForgettingModel {
             self.delta[j] = x[j] - self.mean[j];
             self.mean[j] += self.delta[j] / w_new;
         }
+        // The upper triangle, mirrored: the matrix stays exactly symmetric.
         for i in 0..p {
-            for j in 0..p {
-                self.comoment[i * p + j] =
-                    l * self.comoment[i * p + j] + c * self.delta[i] * self.delta[j];
+            for j in i..p {
+                let v = l * self.comoment[i * p + j] + c * self.delta[i] * self.delta[j];
+                self.comoment[i * p + j] = v;
+                self.comoment[j * p + i] = v;
             }
         }
         self.weight_sum = w_new;
@@ -240,5 +250,100 @@ impl ForgettingModel {
                 forgetting: self.forgetting,
             },
         )
+    }
+}
+
+/// The serialized form of [`ForgettingModel`].
+#[derive(Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ForgettingData {
+    format: Option<String>,
+    format_version: Option<u32>,
+    kind: String,
+    dim: usize,
+    forgetting: f64,
+    refactor_every: u64,
+    count: u64,
+    weight_sum: f64,
+    weight_sq_sum: f64,
+    mean: Vec<f64>,
+    comoment: Vec<f64>,
+}
+
+const KIND: &str = "exponential_forgetting";
+
+impl From<ForgettingModel> for ForgettingData {
+    fn from(m: ForgettingModel) -> Self {
+        ForgettingData {
+            format: Some(FORMAT_NAME.into()),
+            format_version: Some(DRIFT_FORMAT_VERSION),
+            kind: KIND.into(),
+            dim: m.p,
+            forgetting: m.forgetting,
+            refactor_every: m.refactor_every,
+            count: m.count,
+            weight_sum: m.weight_sum,
+            weight_sq_sum: m.weight_sq_sum,
+            mean: m.mean,
+            comoment: m.comoment,
+        }
+    }
+}
+
+impl TryFrom<ForgettingData> for ForgettingModel {
+    type Error = Error;
+    fn try_from(d: ForgettingData) -> Result<Self> {
+        check_drift_format(d.format.as_deref(), d.format_version)?;
+        let bad = |reason: String| Err(Error::Format { reason });
+        if d.kind != KIND {
+            return bad(format!("drift model kind \"{}\" is not \"{KIND}\"", d.kind));
+        }
+        let p = d.dim;
+        if d.mean.len() != p || d.comoment.len() != p.saturating_mul(p) {
+            return bad(format!(
+                "{} mean values and {} co-moments for {p} columns",
+                d.mean.len(),
+                d.comoment.len()
+            ));
+        }
+        let mut m = ForgettingModel::new(d.dim, d.forgetting)
+            .map_err(|e| Error::Format {
+                reason: e.to_string(),
+            })?
+            .with_refactor_every(d.refactor_every);
+        let finite = |v: &f64| v.is_finite();
+        if !(d.mean.iter().all(finite) && d.comoment.iter().all(finite)) {
+            return bad("a mean or co-moment value is not finite".into());
+        }
+        if !(d.weight_sum.is_finite()
+            && d.weight_sq_sum.is_finite()
+            && d.weight_sum >= 0.0
+            && d.weight_sq_sum >= 0.0
+            && (d.count == 0) == (d.weight_sum == 0.0))
+        {
+            return bad(format!(
+                "weights {} and {} do not fit {} rows",
+                d.weight_sum, d.weight_sq_sum, d.count
+            ));
+        }
+        for i in 0..p {
+            for j in 0..i {
+                let (a, b) = (d.comoment[i * p + j], d.comoment[j * p + i]);
+                if a != b {
+                    return bad(format!(
+                        "the co-moment matrix is not symmetric at ({i}, {j})"
+                    ));
+                }
+            }
+        }
+        m.count = d.count;
+        m.weight_sum = d.weight_sum;
+        m.weight_sq_sum = d.weight_sq_sum;
+        m.mean = d.mean;
+        m.comoment = d.comoment;
+        if m.count > p as u64 {
+            m.refactor();
+        }
+        Ok(m)
     }
 }

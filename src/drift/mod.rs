@@ -39,6 +39,33 @@ mod factor;
 mod forgetting;
 mod window;
 
+/// `len` zeros, or an error (not an abort) when `len` overflowed or the
+/// memory cannot be had.
+fn zeroed(len: Option<usize>, what: &'static str) -> crate::Result<Vec<f64>> {
+    let too_large = || crate::Error::invalid(what, "too large to allocate on this machine");
+    let len = len.ok_or_else(too_large)?;
+    let mut v = Vec::new();
+    v.try_reserve_exact(len).map_err(|_| too_large())?;
+    v.resize(len, 0.0);
+    Ok(v)
+}
+
+/// The `format` field of a serialized drift model.
+const FORMAT_NAME: &str = "mvdist-drift-model";
+
+/// The newest drift-model format version this build reads and writes.
+pub const DRIFT_FORMAT_VERSION: u32 = 1;
+
+fn check_drift_format(found_name: Option<&str>, found_version: Option<u32>) -> crate::Result<()> {
+    crate::model_file::check_format(
+        "drift model",
+        FORMAT_NAME,
+        DRIFT_FORMAT_VERSION,
+        found_name,
+        found_version,
+    )
+}
+
 pub use forgetting::ForgettingModel;
 pub use window::SlidingWindowModel;
 

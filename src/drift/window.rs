@@ -2,7 +2,7 @@
 //! Cholesky factor.
 
 use super::factor::TrackedFactor;
-use super::DEFAULT_REFACTOR_EVERY;
+use super::{check_drift_format, DEFAULT_REFACTOR_EVERY, DRIFT_FORMAT_VERSION, FORMAT_NAME};
 use crate::calibration::{Reference, RowOrigin};
 use crate::data::check_row;
 use crate::error::{Error, Result};
@@ -10,6 +10,7 @@ use crate::estimate::FitMethod;
 use crate::model::{DistanceModel, RowScore};
 use crate::moments::MomentAccumulator;
 use crate::scatter::Scatter;
+use serde::{Deserialize, Serialize};
 
 /// Mean and covariance of the last `w` rows, kept current in `O(p²)` per
 /// row: the new row is added by a rank-one update and the oldest removed by
@@ -31,7 +32,12 @@ use crate::scatter::Scatter;
 /// assert!(!s.flagged);
 /// # Ok::<(), mvdist::Error>(())
 /// ```
-#[derive(Clone, Debug)]
+///
+/// Serializable, versioned (`format`, `format_version`): the saved state is
+/// the window's rows, oldest first; loading replays them and recomputes
+/// the mean, co-moments and factor exactly.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+#[serde(try_from = "WindowData", into = "WindowData")]
 pub struct SlidingWindowModel {
     p: usize,
     capacity: usize,
@@ -64,18 +70,20 @@ impl SlidingWindowModel {
                 "window size",
                 format!(
                     "{capacity} rows is too small for {dim} columns; use at least {}",
-                    dim + 2
+                    dim.saturating_add(2)
                 ),
             ));
         }
+        let rows = super::zeroed(capacity.checked_mul(dim), "window size")?;
+        let comoment = super::zeroed(dim.checked_mul(dim), "number of columns")?;
         Ok(SlidingWindowModel {
             p: dim,
             capacity,
-            rows: vec![0.0; capacity * dim],
+            rows,
             len: 0,
             oldest: 0,
             mean: vec![0.0; dim],
-            comoment: vec![0.0; dim * dim],
+            comoment,
             factor: TrackedFactor::zeros(dim),
             factor_ready: false,
             since_refactor: 0,
@@ -286,5 +294,71 @@ impl SlidingWindowModel {
                 capacity: self.capacity,
             },
         )
+    }
+}
+
+/// The serialized form of [`SlidingWindowModel`].
+#[derive(Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct WindowData {
+    format: Option<String>,
+    format_version: Option<u32>,
+    kind: String,
+    dim: usize,
+    capacity: usize,
+    refactor_every: u64,
+    /// Row-major, oldest row first.
+    rows: Vec<f64>,
+}
+
+const KIND: &str = "sliding_window";
+
+impl From<SlidingWindowModel> for WindowData {
+    fn from(m: SlidingWindowModel) -> Self {
+        let p = m.p;
+        let mut rows = Vec::with_capacity(m.len * p);
+        for k in 0..m.len {
+            let slot = (m.oldest + k) % m.capacity;
+            rows.extend_from_slice(&m.rows[slot * p..(slot + 1) * p]);
+        }
+        WindowData {
+            format: Some(FORMAT_NAME.into()),
+            format_version: Some(DRIFT_FORMAT_VERSION),
+            kind: KIND.into(),
+            dim: p,
+            capacity: m.capacity,
+            refactor_every: m.refactor_every,
+            rows,
+        }
+    }
+}
+
+impl TryFrom<WindowData> for SlidingWindowModel {
+    type Error = Error;
+    fn try_from(d: WindowData) -> Result<Self> {
+        check_drift_format(d.format.as_deref(), d.format_version)?;
+        let bad = |reason: String| Error::Format { reason };
+        if d.kind != KIND {
+            return Err(bad(format!(
+                "drift model kind \"{}\" is not \"{KIND}\"",
+                d.kind
+            )));
+        }
+        let mut m = SlidingWindowModel::new(d.dim, d.capacity).map_err(|e| bad(e.to_string()))?;
+        m.refactor_every = d.refactor_every.max(1);
+        let p = d.dim;
+        if !d.rows.len().is_multiple_of(p) || d.rows.len() / p > d.capacity {
+            return Err(bad(format!(
+                "{} stored values are not at most {} rows of {p} columns",
+                d.rows.len(),
+                d.capacity
+            )));
+        }
+        for (i, row) in d.rows.chunks(p).enumerate() {
+            m.update(row)
+                .map_err(|e| bad(format!("stored row {i}: {e}")))?;
+        }
+        m.refresh();
+        Ok(m)
     }
 }

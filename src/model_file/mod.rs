@@ -99,6 +99,37 @@ struct Header {
     format_version: Option<u32>,
 }
 
+/// Checks the `format` and `format_version` fields of a serialized value
+/// (a model file, a classifier, a drift model): the name must be `name`
+/// and the version between 1 and `newest`.
+///
+/// # Errors
+/// [`Error::Format`] saying which field is wrong and what to do.
+pub(crate) fn check_format(
+    what: &str,
+    name: &str,
+    newest: u32,
+    found_name: Option<&str>,
+    found_version: Option<u32>,
+) -> Result<()> {
+    if found_name != Some(name) {
+        return Err(Error::Format {
+            reason: format!("not a {what} (the \"format\" field is not \"{name}\")"),
+        });
+    }
+    match found_version {
+        Some(v) if (1..=newest).contains(&v) => Ok(()),
+        Some(v) => Err(Error::Format {
+            reason: format!(
+                "{what} format version {v} is newer than this build reads ({newest}); upgrade mvdist"
+            ),
+        }),
+        None => Err(Error::Format {
+            reason: format!("the {what}'s \"format_version\" field is missing"),
+        }),
+    }
+}
+
 impl ModelFile {
     /// Pairs a model with its variable names.
     ///
@@ -239,31 +270,13 @@ impl ModelFile {
         let header: Header = serde_json::from_str(text).map_err(|e| Error::Format {
             reason: format!("not a model file: {e}"),
         })?;
-        match header.format.as_deref() {
-            Some(FORMAT_NAME) => {}
-            _ => {
-                return Err(Error::Format {
-                    reason: format!(
-                        "not a model file (the \"format\" field is not \"{FORMAT_NAME}\")"
-                    ),
-                })
-            }
-        }
-        match header.format_version {
-            Some(v) if v <= FORMAT_VERSION && v >= 1 => {}
-            Some(v) => {
-                return Err(Error::Format {
-                    reason: format!(
-                        "format version {v} is newer than this build reads ({FORMAT_VERSION}); upgrade mvdist"
-                    ),
-                })
-            }
-            None => {
-                return Err(Error::Format {
-                    reason: "the \"format_version\" field is missing".into(),
-                })
-            }
-        }
+        check_format(
+            "model file",
+            FORMAT_NAME,
+            FORMAT_VERSION,
+            header.format.as_deref(),
+            header.format_version,
+        )?;
         let mut data: FileData = serde_json::from_str(text).map_err(|e| Error::Format {
             reason: e.to_string(),
         })?;

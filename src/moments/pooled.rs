@@ -5,6 +5,7 @@ use super::{accumulator::MomentAccumulator, Divisor};
 use crate::error::{Error, Result};
 use crate::scatter::Scatter;
 use ndarray::{Array2, ArrayView2, Axis};
+use serde::{Deserialize, Serialize};
 use std::collections::HashMap;
 use std::hash::Hash;
 
@@ -28,10 +29,58 @@ use std::hash::Hash;
 /// assert!((pooled[(0, 0)] - 1.0).abs() < 1e-14);
 /// # Ok::<(), mvdist::Error>(())
 /// ```
-#[derive(Clone, Debug)]
+///
+/// Serializable (labels and accumulators); deserializing checks that there
+/// is one accumulator per label, the labels are distinct and every group
+/// has the same number of columns and at least one row.
+#[derive(Clone, Debug, Serialize, Deserialize)]
+#[serde(
+    try_from = "GroupMomentsData<L>",
+    bound(deserialize = "L: Deserialize<'de> + Eq + Hash + Clone")
+)]
 pub struct GroupMoments<L> {
     labels: Vec<L>,
     groups: Vec<MomentAccumulator>,
+}
+
+/// The serialized form of [`GroupMoments`], checked on the way in.
+#[derive(Deserialize)]
+struct GroupMomentsData<L> {
+    labels: Vec<L>,
+    groups: Vec<MomentAccumulator>,
+}
+
+impl<L: Eq + Hash + Clone> TryFrom<GroupMomentsData<L>> for GroupMoments<L> {
+    type Error = Error;
+    fn try_from(d: GroupMomentsData<L>) -> Result<Self> {
+        let bad = |reason: String| Err(Error::Format { reason });
+        if d.labels.len() != d.groups.len() {
+            return bad(format!(
+                "{} labels for {} groups",
+                d.labels.len(),
+                d.groups.len()
+            ));
+        }
+        if d.groups.is_empty() {
+            return bad("no groups".into());
+        }
+        let p = d.groups[0].dim();
+        if let Some(g) = d.groups.iter().position(|a| a.dim() != p || a.count() == 0) {
+            return bad(format!(
+                "group {g} has {} columns and {} rows (the first group has {p} columns; every group needs a row)",
+                d.groups[g].dim(),
+                d.groups[g].count()
+            ));
+        }
+        let mut seen = std::collections::HashSet::new();
+        if let Some(g) = d.labels.iter().position(|l| !seen.insert(l)) {
+            return bad(format!("the label of group {g} repeats an earlier one"));
+        }
+        Ok(GroupMoments {
+            labels: d.labels,
+            groups: d.groups,
+        })
+    }
 }
 
 impl<L: Eq + Hash + Clone> GroupMoments<L> {

@@ -106,3 +106,67 @@ fn drifting_models_refuse_to_score_until_ready_and_check_input() {
     assert!(ForgettingModel::new(3, 1.5).is_err());
     assert!(SlidingWindowModel::new(3, 4).is_err());
 }
+
+#[test]
+fn saved_drift_models_resume_where_they_stopped() {
+    // Save mid-stream, load, feed both the same further rows: scores agree
+    // to rounding (the loaded model refactorizes once; the running one
+    // carries its updated factor), and the window's rows and mean agree
+    // exactly with a model that saw only the window.
+    let x = replayed_rows(3000, 8);
+    let mut forgetting = ForgettingModel::new(8, 0.99).unwrap();
+    let mut window = SlidingWindowModel::new(8, 300).unwrap();
+    for r in x.outer_iter().take(2000) {
+        forgetting.update(r.as_slice().unwrap()).unwrap();
+        window.update(r.as_slice().unwrap()).unwrap();
+    }
+    let f_json = serde_json::to_string(&forgetting).unwrap();
+    let w_json = serde_json::to_string(&window).unwrap();
+    assert!(f_json.contains("\"format\":\"mvdist-drift-model\""));
+    let mut f_back: ForgettingModel = serde_json::from_str(&f_json).unwrap();
+    let mut w_back: SlidingWindowModel = serde_json::from_str(&w_json).unwrap();
+    assert_eq!(w_back.len(), 300);
+    for r in x.outer_iter().skip(2000) {
+        let r = r.as_slice().unwrap();
+        let (a, b) = (
+            forgetting.squared_distance(r).unwrap(),
+            f_back.squared_distance(r).unwrap(),
+        );
+        assert!((a - b).abs() <= 1e-9 * a.max(1.0), "{a} {b}");
+        let (a, b) = (
+            window.squared_distance(r).unwrap(),
+            w_back.squared_distance(r).unwrap(),
+        );
+        assert!((a - b).abs() <= 1e-9 * a.max(1.0), "{a} {b}");
+        for m in [&mut forgetting, &mut f_back] {
+            m.update(r).unwrap();
+        }
+        window.update(r).unwrap();
+        w_back.update(r).unwrap();
+    }
+    assert_eq!(forgetting.count(), f_back.count());
+}
+
+#[test]
+fn loading_a_drift_model_checks_it() {
+    let mut m = ForgettingModel::new(2, 0.9).unwrap();
+    for k in 0..20 {
+        let t = k as f64;
+        m.update(&[t.sin(), t.cos() + 0.1 * t]).unwrap();
+    }
+    let json = serde_json::to_string(&m).unwrap();
+    let newer = json.replace("\"format_version\":1", "\"format_version\":7");
+    let e = serde_json::from_str::<ForgettingModel>(&newer).unwrap_err();
+    assert!(e.to_string().contains("newer than this build"), "{e}");
+    let mut value: serde_json::Value = serde_json::from_str(&json).unwrap();
+    value["comoment"][1] = serde_json::json!(123.0);
+    let e = serde_json::from_value::<ForgettingModel>(value).unwrap_err();
+    assert!(e.to_string().contains("not symmetric"), "{e}");
+    // A window model is not a forgetting model.
+    let w = SlidingWindowModel::new(2, 10).unwrap();
+    let wj = serde_json::to_string(&w).unwrap();
+    assert!(serde_json::from_str::<ForgettingModel>(&wj).is_err());
+    let mut value: serde_json::Value = serde_json::from_str(&wj).unwrap();
+    value["rows"] = serde_json::json!([1.0, 2.0, 3.0]);
+    assert!(serde_json::from_value::<SlidingWindowModel>(value).is_err());
+}

@@ -681,6 +681,35 @@ fn mutated_serialized_values_never_panic() {
         let _ = w.unwhiten(rows);
         let _ = (w.forward_matrix(), w.inverse_matrix());
     });
+    // Classifiers and drift models: mutated files are refused or refit.
+    let labels: Vec<u32> = (0..rows.nrows()).map(|i| (i % 2) as u32).collect();
+    for rule in [Rule::Linear, Rule::Quadratic] {
+        let options = ClassifierOptions::new(rule).with_priors(Priors::Equal);
+        if let Ok(c) = Classifier::fit(rows, &labels, &options) {
+            survives_mutations(&c, |c: &Classifier<u32>| {
+                let _ = c.predict_row(&probe);
+                let _ = c
+                    .predict_row_with(&probe, &PredictOptions::default().with_no_group_below(0.01));
+                let _ = c.predict(rows);
+            });
+        }
+    }
+    let mut forgetting = mvdist::drift::ForgettingModel::new(3, 0.95).unwrap();
+    let mut window = mvdist::drift::SlidingWindowModel::new(3, 6).unwrap();
+    for r in rows.outer_iter() {
+        forgetting.update(r.as_slice().unwrap()).unwrap();
+        window.update(r.as_slice().unwrap()).unwrap();
+    }
+    survives_mutations(&forgetting, |m| {
+        let _ = (m.score_row(&probe, 0.01), m.snapshot(), m.covariance());
+    });
+    survives_mutations(&window, |m| {
+        let _ = (
+            m.score_row(&probe, 0.01),
+            m.snapshot(),
+            m.covariance_factor(),
+        );
+    });
     let scores = model.score(rows, RowOrigin::InSample).unwrap();
     survives_mutations(&scores, |s| {
         let _ = s.flags(0.05, Adjustment::BenjaminiHochberg);
