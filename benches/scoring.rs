@@ -10,7 +10,7 @@
 use criterion::{black_box, criterion_group, criterion_main, BenchmarkId, Criterion, Throughput};
 
 mod support;
-use mvdist::{DistanceModel, RowOrigin};
+use mvdist::{DistanceModel, RowOrigin, Scorer};
 use rayon::prelude::*;
 use std::time::{Duration, Instant};
 use support::correlated_rows;
@@ -81,6 +81,42 @@ fn bench_single(c: &mut Criterion) {
         });
     }
     one.finish();
+
+    // A flag at a fixed level: the model's score_row (reference chosen and
+    // p-value evaluated per row) against the prepared scorer's comparison
+    // with a precomputed cutoff, and the scorer with its p-value.
+    let mut flag = c.benchmark_group("flag_one");
+    let p = 16;
+    let x = correlated_rows(2_000, p, 3);
+    let model = DistanceModel::fit(x.view()).expect("fit");
+    let scorer = Scorer::new(model.clone(), RowOrigin::New, 0.01).expect("scorer");
+    let rows: Vec<Vec<f64>> = (0..64).map(|i| x.row(i).to_vec()).collect();
+    let mut k = 0;
+    flag.bench_function("model_score_row", |b| {
+        b.iter(|| {
+            k = (k + 1) & 63;
+            model
+                .score_row(black_box(&rows[k]), RowOrigin::New, 0.01)
+                .expect("score")
+                .flagged
+        })
+    });
+    flag.bench_function("scorer_flag_row", |b| {
+        b.iter(|| {
+            k = (k + 1) & 63;
+            scorer.flag_row(black_box(&rows[k])).expect("flag")
+        })
+    });
+    flag.bench_function("scorer_score_row", |b| {
+        b.iter(|| {
+            k = (k + 1) & 63;
+            scorer
+                .score_row(black_box(&rows[k]))
+                .expect("score")
+                .flagged
+        })
+    });
+    flag.finish();
 
     // Throughput of one shared model scored from one and from two threads.
     let mut shared = c.benchmark_group("score_one_shared");

@@ -82,7 +82,7 @@ pub enum FitMethod {
         scale_factor: f64,
         /// For the reweighted estimate, the simulated Wishart degrees of
         /// freedom `m` of its F reference
-        /// ([`crate::Reference::ReweightedMcdF`]); `None` for the raw estimate,
+        /// ([`crate::Reference::reweighted_mcd`]); `None` for the raw estimate,
         /// for fits without the small-sample simulation, and in model files
         /// written before this field existed (their reweighted distances
         /// use χ²(p)).

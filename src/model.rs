@@ -591,9 +591,9 @@ impl DistanceModel {
     /// |---|---|---|
     /// | classical, weighted, supplied | F, Beta (exact under normality) | χ²(p) |
     /// | shrinkage (Ledoit–Wolf, OAS, fixed) | F, Beta (approximate; see [`crate::shrinkage`]) | χ²(p) |
-    /// | MCD, reweighted, simulated `m` | scaled F ([`Reference::ReweightedMcdF`]) | χ²(p) |
+    /// | MCD, reweighted, simulated `m` | scaled F ([`Reference::reweighted_mcd`]) | χ²(p) |
     /// | MCD, reweighted, no `m` (`n > 1000` or no simulation) | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
-    /// | MCD, raw | Hardin–Rocke F ([`Reference::RawMcdF`]) | χ²(p) |
+    /// | MCD, raw | Hardin–Rocke F ([`Reference::raw_mcd`]) | χ²(p) |
     ///
     /// The F and Beta laws are stated for the unbiased (`n − 1`) covariance;
     /// for a model whose scatter uses the divisor `n` (classical fits with

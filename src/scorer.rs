@@ -57,7 +57,7 @@ impl Scorer {
     /// Prepares `model` for rows of `origin` flagged at level `alpha`.
     ///
     /// # Errors
-    /// [`Error::InvalidParameter`] unless `0 < alpha < 1`; those of
+    /// [`Error::InvalidParameter`](crate::Error::InvalidParameter) unless `0 < alpha < 1`; those of
     /// [`DistanceModel::reference`] and [`Reference::cutoff`].
     pub fn new(model: DistanceModel, origin: RowOrigin, alpha: f64) -> Result<Self> {
         check_probability(alpha)?;
@@ -147,7 +147,7 @@ impl Scorer {
     ///
     /// # Errors
     /// As [`DistanceModel::squared_distances_into`];
-    /// [`Error::ShapeMismatch`] if a buffer has the wrong length.
+    /// [`Error::ShapeMismatch`](crate::Error::ShapeMismatch) if a buffer has the wrong length.
     pub fn score_into<'a>(
         &self,
         rows: impl Into<Rows<'a>>,

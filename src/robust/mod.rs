@@ -42,11 +42,11 @@
 //! often than nominal (measured: 19% of new rows at α = 0.025 for
 //! `n = 21, p = 3`). When the small-sample simulation runs (`n ≤ 1000`),
 //! it also gives the Wishart degrees of freedom `m` of a scaled-F
-//! approximation, [`crate::Reference::ReweightedMcdF`], and the model uses
+//! approximation, [`crate::Reference::reweighted_mcd`], and the model uses
 //! that (measured: 2.6% at the same size; `small_sample.rs` says how `m` is
 //! obtained). Distances from the raw estimate ([`McdFit::raw_model`]) have
 //! heavier tails; their reference is the F approximation of Hardin and
-//! Rocke (2005), [`crate::Reference::RawMcdF`].
+//! Rocke (2005), [`crate::Reference::raw_mcd`].
 //! [`crate::DistanceModel::reference`] picks the matching one from the
 //! model's [`crate::FitMethod`].
 //!
@@ -363,7 +363,7 @@ impl McdFit {
     }
 
     /// The simulated Wishart degrees of freedom `m` of the reweighted
-    /// distances' F reference ([`crate::Reference::ReweightedMcdF`]); `None`
+    /// distances' F reference ([`crate::Reference::reweighted_mcd`]); `None`
     /// when the small-sample simulation did not run (`n > 1000`, or
     /// [`McdOptions::with_small_sample_replications`]`(0)`), in which case
     /// the reweighted model uses χ²(p).

@@ -177,12 +177,8 @@ fn mcd_resists_planted_outliers() {
             );
             let cutoff = robust.cutoff(0.025, RowOrigin::InSample).unwrap();
             let d2 = robust.squared_distances(x.view()).unwrap();
-            for i in 0..bad {
-                assert!(
-                    d2[i] > cutoff,
-                    "{label}: planted row {i} has d² {} ≤ {cutoff}",
-                    d2[i]
-                );
+            for (i, &d) in d2.iter().enumerate().take(bad) {
+                assert!(d > cutoff, "{label}: planted row {i} has d² {d} ≤ {cutoff}");
             }
         }
     }
