@@ -140,5 +140,10 @@ mod tests {
         one["priors"] = serde_json::json!("equal");
         let e = serde_json::from_value::<Classifier<String>>(one).unwrap_err();
         assert!(e.to_string().contains("does not refit"), "{e}");
+        // Weighted group moments (a count that its weights do not match).
+        let mut weighted = value.clone();
+        weighted["moments"]["groups"][0]["count"] = serde_json::json!(1_000_000_000u64);
+        let e = serde_json::from_value::<Classifier<String>>(weighted).unwrap_err();
+        assert!(e.to_string().contains("weights do not match"), "{e}");
     }
 }

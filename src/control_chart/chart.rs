@@ -546,9 +546,11 @@ impl ControlChart {
             (ChartDesign::Subgroups { size }, RowOrigin::New) => {
                 ControlLimit::subgroups_phase_two(m, size, p)
             }
-            (_, RowOrigin::KnownParameters) => {
-                ControlLimit::individuals_phase_two(m, p)?.for_origin(RowOrigin::KnownParameters)
-            }
+            (_, RowOrigin::KnownParameters) => Err(Error::invalid(
+                "row origin",
+                "a T² chart estimates its location and scatter; its points are Phase I \
+                 (RowOrigin::InSample) or Phase II (RowOrigin::New)",
+            )),
         }
     }
 

@@ -138,8 +138,8 @@ impl ForgettingModel {
         }
         self.weight_sum = w_new;
         self.weight_sq_sum = l * l * self.weight_sq_sum + 1.0;
-        self.count += 1;
-        self.since_refactor += 1;
+        self.count = self.count.saturating_add(1);
+        self.since_refactor = self.since_refactor.saturating_add(1);
         if self.factor_ready {
             let ok =
                 self.factor.scale_and_update(l, &self.delta, c).is_ok() && self.factor.is_valid();
@@ -325,6 +325,29 @@ impl TryFrom<ForgettingData> for ForgettingModel {
                 "weights {} and {} do not fit {} rows",
                 d.weight_sum, d.weight_sq_sum, d.count
             ));
+        }
+        // The weights follow from λ and the row count: W = Σ λᵏ and
+        // Σw² = Σ λ²ᵏ over the rows seen (k = 0 … count − 1).
+        let geometric = |r: f64| {
+            if r == 1.0 {
+                d.count as f64
+            } else {
+                (1.0 - r.powf(d.count as f64)) / (1.0 - r)
+            }
+        };
+        let (w, w2) = (
+            geometric(d.forgetting),
+            geometric(d.forgetting * d.forgetting),
+        );
+        let close = |a: f64, b: f64| (a - b).abs() <= 1e-9 * b.abs().max(1.0);
+        if !(close(d.weight_sum, w) && close(d.weight_sq_sum, w2)) {
+            return bad(format!(
+                "weights {} and {} do not follow from λ = {} and {} rows ({w} and {w2})",
+                d.weight_sum, d.weight_sq_sum, d.forgetting, d.count
+            ));
+        }
+        if d.count == 0 && !(d.mean.iter().chain(&d.comoment).all(|&v| v == 0.0)) {
+            return bad("a model that has seen no rows has a non-zero mean or co-moment".into());
         }
         for i in 0..p {
             for j in 0..i {

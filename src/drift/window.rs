@@ -344,6 +344,14 @@ impl TryFrom<WindowData> for SlidingWindowModel {
                 d.kind
             )));
         }
+        // A file must not make the reader reserve more than 2²⁷ values
+        // (1 GiB) for the ring buffer it names.
+        if d.capacity.saturating_mul(d.dim) > 1 << 27 {
+            return Err(bad(format!(
+                "a window of {} rows of {} columns is larger than a saved window may be (2^27 values)",
+                d.capacity, d.dim
+            )));
+        }
         let mut m = SlidingWindowModel::new(d.dim, d.capacity).map_err(|e| bad(e.to_string()))?;
         m.refactor_every = d.refactor_every.max(1);
         let p = d.dim;

@@ -119,6 +119,9 @@ pub(crate) fn check_format(
     }
     match found_version {
         Some(v) if (1..=newest).contains(&v) => Ok(()),
+        Some(0) => Err(Error::Format {
+            reason: format!("{what} format version 0 does not exist; the file is damaged"),
+        }),
         Some(v) => Err(Error::Format {
             reason: format!(
                 "{what} format version {v} is newer than this build reads ({newest}); upgrade mvdist"

@@ -72,6 +72,22 @@ impl<L: Eq + Hash + Clone> TryFrom<GroupMomentsData<L>> for GroupMoments<L> {
                 d.groups[g].count()
             ));
         }
+        // Group moments come from unweighted rows: every weight is 1.
+        if let Some(g) = d.groups.iter().position(|a| {
+            let n = a.count as f64;
+            a.weight_sum != n || a.weight_sq_sum != n
+        }) {
+            return bad(format!(
+                "group {g}'s weights do not match its row count (group moments are unweighted)"
+            ));
+        }
+        if d.groups
+            .iter()
+            .try_fold(0u64, |t, a| t.checked_add(a.count))
+            .is_none()
+        {
+            return bad("the row counts overflow".into());
+        }
         let mut seen = std::collections::HashSet::new();
         if let Some(g) = d.labels.iter().position(|l| !seen.insert(l)) {
             return bad(format!("the label of group {g} repeats an earlier one"));
@@ -145,7 +161,9 @@ impl<L: Eq + Hash + Clone> GroupMoments<L> {
 
     /// Total number of rows.
     pub fn count(&self) -> u64 {
-        self.groups.iter().map(|g| g.count()).sum()
+        self.groups
+            .iter()
+            .fold(0u64, |t, g| t.saturating_add(g.count()))
     }
 
     /// The pooled within-group covariance.

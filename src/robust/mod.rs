@@ -236,11 +236,12 @@ impl McdOptions {
         if n <= p {
             return Err(Error::TooFewRows {
                 rows: n,
-                needed: p + 1,
+                needed: p.saturating_add(1),
                 columns: p,
             });
         }
-        let lowest = (n + p).div_ceil(2); // ⌊(n + p + 1)/2⌋
+        // ⌊(n + p + 1)/2⌋ without overflow (n > p here).
+        let lowest = n / 2 + p / 2 + (n % 2 + p % 2).div_ceil(2);
         let h = match self.support_fraction {
             None => lowest,
             Some(f) => ((f * n as f64) + 1e-9).floor().max(0.0) as usize,

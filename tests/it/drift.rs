@@ -162,6 +162,15 @@ fn loading_a_drift_model_checks_it() {
     value["comoment"][1] = serde_json::json!(123.0);
     let e = serde_json::from_value::<ForgettingModel>(value).unwrap_err();
     assert!(e.to_string().contains("not symmetric"), "{e}");
+    // Weights that do not follow from λ and the row count make a wrong
+    // model (a negative denominator, or a χ²-like reference): refused.
+    let mut value: serde_json::Value = serde_json::from_str(&json).unwrap();
+    value["weight_sq_sum"] = serde_json::json!(1e6);
+    let e = serde_json::from_value::<ForgettingModel>(value).unwrap_err();
+    assert!(e.to_string().contains("do not follow"), "{e}");
+    let mut value: serde_json::Value = serde_json::from_str(&json).unwrap();
+    value["count"] = serde_json::json!(u64::MAX);
+    assert!(serde_json::from_value::<ForgettingModel>(value).is_err());
     // A window model is not a forgetting model.
     let w = SlidingWindowModel::new(2, 10).unwrap();
     let wj = serde_json::to_string(&w).unwrap();
