@@ -54,8 +54,8 @@ use serde::{Deserialize, Serialize};
 /// let cutoff = reference.cutoff(0.01)?;
 /// assert!((reference.p_value(cutoff) - 0.01).abs() < 1e-12);
 /// // The law and its degrees of freedom.
-/// let Law::ScaledF { d1, d2, .. } = reference.law() else { unreachable!() };
-/// assert_eq!((d1, d2), (3.0, 47.0));
+/// assert!(matches!(reference.law(), Law::ScaledF { d1: 3.0, d2: 47.0, .. }));
+/// assert_eq!(reference.degrees_of_freedom(), [3.0, 47.0]);
 /// # Ok::<(), mvdist::Error>(())
 /// ```
 #[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]

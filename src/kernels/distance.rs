@@ -243,26 +243,16 @@ pub(crate) fn batch_squared_distances(
     x: ArrayView2<'_, f64>,
     out: &mut [f64],
 ) -> Result<()> {
-    let w = factor.w;
-    let diagonal = factor.diagonal;
-    let n = x.nrows();
-    let p = mu.len();
-    if n * p < SEQUENTIAL_BELOW {
-        let mut buf = Vec::new();
-        block_dispatch(w, mu, diagonal, x, out, &mut buf);
-    } else {
-        out.par_chunks_mut(TASK_ROWS)
-            .enumerate()
-            .for_each_init(Vec::new, |buf, (task, chunk)| {
-                let start = task * TASK_ROWS;
-                let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
-                block_dispatch(w, mu, diagonal, rows, chunk, buf);
-            });
-    }
-    if let Some(row) = out.iter().position(|v| !v.is_finite()) {
-        return Err(non_finite_cause(x, row));
-    }
-    Ok(())
+    let (w, diagonal) = (factor.w, factor.diagonal);
+    in_tasks(
+        x.nrows() * mu.len(),
+        out,
+        |start, chunk, buf: &mut Vec<[f64; LANES]>| {
+            let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
+            block_dispatch(w, mu, diagonal, rows, chunk, buf);
+        },
+    );
+    first_non_finite(x, out)
 }
 
 /// As [`batch_squared_distances`] for single-precision rows: each task
@@ -274,48 +264,55 @@ pub(crate) fn batch_squared_distances_f32(
     x: ArrayView2<'_, f32>,
     out: &mut [f64],
 ) -> Result<()> {
-    let w = factor.w;
-    let diagonal = factor.diagonal;
-    let n = x.nrows();
-    let p = mu.len();
-    let run =
-        |start: usize, chunk: &mut [f64], buf: &mut Vec<[f64; LANES]>, wide: &mut Vec<f64>| {
+    let (w, diagonal, p) = (factor.w, factor.diagonal, mu.len());
+    in_tasks(
+        x.nrows() * p,
+        out,
+        |start, chunk, (buf, wide): &mut (Vec<[f64; LANES]>, Vec<f64>)| {
             let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
             wide.clear();
             wide.extend(rows.iter().map(|&v| f64::from(v)));
             let view = crate::data::matrix_view(wide, chunk.len(), p);
             block_dispatch(w, mu, diagonal, view, chunk, buf);
-        };
-    if n * p < SEQUENTIAL_BELOW {
-        run(0, out, &mut Vec::new(), &mut Vec::new());
+        },
+    );
+    first_non_finite(x, out)
+}
+
+/// Runs `task(first_row, chunk_of_out, scratch)` over `out` in blocks of
+/// [`TASK_ROWS`], on the calling thread below [`SEQUENTIAL_BELOW`] values
+/// (`work`) and on the caller's rayon pool above, with per-task scratch.
+fn in_tasks<S: Default + Send>(
+    work: usize,
+    out: &mut [f64],
+    task: impl Fn(usize, &mut [f64], &mut S) + Sync,
+) {
+    if work < SEQUENTIAL_BELOW {
+        task(0, out, &mut S::default());
     } else {
-        out.par_chunks_mut(TASK_ROWS).enumerate().for_each_init(
-            || (Vec::new(), Vec::new()),
-            |(buf, wide), (task, chunk)| run(task * TASK_ROWS, chunk, buf, wide),
-        );
+        out.par_chunks_mut(TASK_ROWS)
+            .enumerate()
+            .for_each_init(S::default, |s, (t, chunk)| task(t * TASK_ROWS, chunk, s));
     }
-    if let Some(row) = out.iter().position(|v| !v.is_finite()) {
-        let r = x.row(row);
-        return Err(match r.iter().position(|v| !v.is_finite()) {
-            Some(column) => Error::NonFinite {
-                row,
-                column,
-                value: f64::from(r[column]),
-            },
-            None => Error::Overflow { row },
-        });
+}
+
+/// `Ok` if every result is finite, else the cause for the first row that
+/// is not ([`non_finite_cause`]).
+fn first_non_finite<T: Copy + Into<f64>>(x: ArrayView2<'_, T>, out: &[f64]) -> Result<()> {
+    match out.iter().position(|v| !v.is_finite()) {
+        Some(row) => Err(non_finite_cause(x, row)),
+        None => Ok(()),
     }
-    Ok(())
 }
 
 /// Why row `row` has a non-finite distance: a non-finite input, or overflow.
-pub(crate) fn non_finite_cause(x: ArrayView2<'_, f64>, row: usize) -> Error {
+pub(crate) fn non_finite_cause<T: Copy + Into<f64>>(x: ArrayView2<'_, T>, row: usize) -> Error {
     let r = x.row(row);
-    match r.iter().position(|v| !v.is_finite()) {
+    match r.iter().position(|&v| !v.into().is_finite()) {
         Some(column) => Error::NonFinite {
             row,
             column,
-            value: r[column],
+            value: r[column].into(),
         },
         None => Error::Overflow { row },
     }
