@@ -1,0 +1,5 @@
+"""Nearest-centroid classification with posteriors and typicality."""
+
+from ._native import Classifier, Predictions, leave_one_out
+
+__all__ = ["Classifier", "Predictions", "leave_one_out"]
