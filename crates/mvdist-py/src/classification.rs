@@ -264,9 +264,7 @@ impl PyClassifier {
         })
     }
 
-    fn __reduce__<'py>(
-        slf: &Bound<'py, Self>,
-    ) -> PyResult<(Bound<'py, PyAny>, (String, Py<PyList>))> {
+    fn __reduce__<'py>(slf: &Bound<'py, Self>) -> PyResult<Reduced<'py>> {
         let py = slf.py();
         let me = slf.get();
         let state = serde_json::to_string(&me.inner)
@@ -288,6 +286,9 @@ impl PyClassifier {
         )
     }
 }
+
+/// What `__reduce__` returns: the rebuilding function and its arguments.
+type Reduced<'py> = (Bound<'py, PyAny>, (String, Py<PyList>));
 
 /// Class predictions for a batch of rows.
 #[pyclass(name = "Predictions", module = "mvdist", frozen)]
