@@ -148,9 +148,6 @@ pub(crate) struct PyClassifier {
 
 #[pymethods]
 impl PyClassifier {
-    /// fit(rows, labels, rule="linear", priors="proportional", divisor="unbiased")
-    /// --
-    ///
     /// Fits to ``rows`` with ``labels[i]`` the group of row i (any hashable
     /// labels). ``rule``: ``"linear"`` (pooled scatter) or
     /// ``"quadratic"``; ``priors``: ``"proportional"``, ``"equal"`` or a
@@ -212,9 +209,6 @@ impl PyClassifier {
         self.inner.centroids().to_owned().into_pyarray(py)
     }
 
-    /// predict(rows, typicality=True, no_group_below=None, threads=None)
-    /// --
-    ///
     /// Predictions for ``rows``. ``no_group_below``: mark rows whose
     /// typicality p-value is below this level for every group.
     #[pyo3(signature = (rows, typicality=true, no_group_below=None, threads=None))]
@@ -243,9 +237,6 @@ impl PyClassifier {
         })
     }
 
-    /// _from_state(state, classes)
-    /// --
-    ///
     /// Rebuilds a classifier from ``__reduce__``'s state (for pickle).
     #[staticmethod]
     fn _from_state(state: &str, classes: Bound<'_, PyList>) -> PyResult<Self> {
@@ -354,9 +345,6 @@ impl PyPredictions {
     }
 }
 
-/// leave_one_out(rows, labels, rule="linear", priors="proportional", divisor="unbiased")
-/// --
-///
 /// Leave-one-out estimate of the error rate: each row is classified by the
 /// classifier fitted without it. Returns a dict with ``error_rate``,
 /// ``assigned`` (labels), ``confusion`` (groups × groups counts, rows

@@ -67,9 +67,6 @@ pub(crate) struct PyControlChart {
 
 #[pymethods]
 impl PyControlChart {
-    /// individuals(rows, alpha=None, average_run_length=None, refit_until_clean=False, max_rounds=10, diagnosis_depth=1, screen_with=None, screen_origin="new")
-    /// --
-    ///
     /// A chart of individual observations from the Phase I ``rows``.
     /// The false-alarm rate per point is ``alpha`` or
     /// ``1 / average_run_length`` (default 0.0027). With
@@ -108,9 +105,6 @@ impl PyControlChart {
         Ok(PyControlChart { inner })
     }
 
-    /// subgroups(rows, size, alpha=None, average_run_length=None, refit_until_clean=False, max_rounds=10, diagnosis_depth=1)
-    /// --
-    ///
     /// A chart of subgroup means: consecutive blocks of ``size`` rows form
     /// the subgroups (the row count must be a multiple of ``size``).
     #[staticmethod]
@@ -176,9 +170,6 @@ impl PyControlChart {
         self.inner.false_alarm().alpha()
     }
 
-    /// upper_limit(origin="new")
-    /// --
-    ///
     /// The upper control limit of T² for Phase II (``"new"``) or Phase I
     /// (``"in_sample"``) points.
     #[pyo3(signature = (origin="new"))]
@@ -200,9 +191,6 @@ impl PyControlChart {
         to_python(py, &self.inner.rounds())
     }
 
-    /// monitor(rows)
-    /// --
-    ///
     /// Phase II: charts new rows (for a subgroup chart, whole subgroups of
     /// rows) against the Phase I limits.
     fn monitor(&self, py: Python<'_>, rows: &Bound<'_, PyAny>) -> PyResult<PyChartPoints> {
@@ -213,9 +201,6 @@ impl PyControlChart {
         Ok(PyChartPoints { points })
     }
 
-    /// diagnose(point, origin="new", depth=1)
-    /// --
-    ///
     /// Which variables (and, with ``depth`` ≥ 1, which relationships
     /// between them) drove one point's T², as a dict of rated terms.
     #[pyo3(signature = (point, origin="new", depth=1))]
@@ -234,18 +219,12 @@ impl PyControlChart {
         to_python(py, &d)
     }
 
-    /// to_json()
-    /// --
-    ///
     /// The chart as JSON text (its estimate, limits and Phase I record).
     fn to_json(&self) -> PyResult<String> {
         serde_json::to_string(&self.inner)
             .map_err(|e| invalid(format!("could not write the chart: {e}")))
     }
 
-    /// from_json(text)
-    /// --
-    ///
     /// A chart from ``to_json``'s text; the contents are checked.
     #[staticmethod]
     fn from_json(text: &str) -> PyResult<Self> {

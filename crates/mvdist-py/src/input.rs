@@ -244,12 +244,26 @@ pub(crate) fn row<'py>(obj: &Bound<'py, PyAny>, what: &str) -> PyResult<Row<'py>
         let a = widened.cast::<PyArray1<f64>>()?;
         return Ok(Row::Owned(readonly1(a, what)?.as_array().to_vec()));
     }
-    match obj.extract::<Vec<f64>>() {
-        Ok(v) => Ok(Row::Owned(v)),
-        Err(_) => Err(invalid(format!(
-            "{what}: could not be read as a row of numbers; pass a 1-D numpy array or a list of floats"
-        ))),
+    if let Ok(v) = obj.extract::<Vec<f64>>() {
+        return Ok(Row::Owned(v));
     }
+    // Anything numpy can read as an array (a pandas Series, a tuple of
+    // mixed numbers, an object with __array__), with numpy's dtype rules.
+    let array = obj
+        .py()
+        .import("numpy")?
+        .call_method1("asarray", (obj,))
+        .map_err(|e| {
+            invalid(format!(
+                "{what}: could not be read as a row of numbers ({e}); pass a 1-D numpy array or a list of floats"
+            ))
+        })?;
+    if array.cast::<PyUntypedArray>()?.ndim() == 0 {
+        return Err(invalid(format!(
+            "{what}: a single number is not a row; pass a 1-D array of the model's columns"
+        )));
+    }
+    row(&array, what)
 }
 
 fn readonly1<'py, T: numpy::Element>(

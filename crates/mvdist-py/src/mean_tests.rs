@@ -86,25 +86,16 @@ impl PyMeanComparison {
         self.inner.sample_sizes().to_vec()
     }
 
-    /// rejects(alpha)
-    /// --
-    ///
     /// Whether the test rejects equal means at level ``alpha``.
     fn rejects(&self, alpha: f64) -> PyResult<bool> {
         check(self.inner.rejects(alpha))
     }
 
-    /// critical_t_squared(alpha)
-    /// --
-    ///
     /// The T² above which the test rejects at level ``alpha``.
     fn critical_t_squared(&self, alpha: f64) -> PyResult<f64> {
         check(self.inner.critical_t_squared(alpha))
     }
 
-    /// intervals(alpha)
-    /// --
-    ///
     /// One dict per variable: ``variable``, ``estimate``,
     /// ``standard_error``, ``simultaneous`` and ``bonferroni`` intervals
     /// (dicts with ``lower`` and ``upper``) at confidence ``1 - alpha``.
@@ -130,9 +121,6 @@ impl PyMeanComparison {
     }
 }
 
-/// one_sample(rows, target)
-/// --
-///
 /// Hotelling's one-sample T² test that the mean of ``rows`` equals
 /// ``target``.
 ///
@@ -156,9 +144,6 @@ pub(crate) fn one_sample(
     Ok(PyMeanComparison { inner })
 }
 
-/// two_sample(first, second, equal_scatter=True)
-/// --
-///
 /// Hotelling's two-sample T² test of equal means, with a pooled scatter
 /// (``equal_scatter=True``) or without assuming equal scatter
 /// (Krishnamoorthy and Yu's modified Nel–Van der Merwe test).
@@ -184,9 +169,6 @@ pub(crate) fn two_sample(
     Ok(PyMeanComparison { inner })
 }
 
-/// paired(first, second)
-/// --
-///
 /// The paired T² test: row i of ``first`` and of ``second`` are two
 /// measurements of the same unit.
 #[pyfunction]
@@ -259,9 +241,6 @@ impl PyScatterEquality {
     }
 }
 
-/// scatter_equality(groups)
-/// --
-///
 /// Box's M test on a list of at least two arrays (one per group, the same
 /// columns). Sensitive to non-normality as well as to unequal scatter.
 #[pyfunction]

@@ -194,9 +194,6 @@ impl PyDistanceModel {
 
 #[pymethods]
 impl PyDistanceModel {
-    /// fit(rows, estimator="classical", *, divisor="unbiased", oas_formula="published", support_fraction=None, seed=None, starts=None, stage="reweighted", variables=None, threads=None)
-    /// --
-    ///
     /// Fits a model to ``rows`` (observations × variables; float64 or
     /// float32 numpy array of any layout, or a pandas DataFrame whose
     /// column names become the variables).
@@ -318,9 +315,6 @@ impl PyDistanceModel {
         Ok(out)
     }
 
-    /// from_parts(location, covariance, sample_size, variables=None)
-    /// --
-    ///
     /// A model from a known location (length p) and covariance (p × p,
     /// symmetric positive definite), estimated from ``sample_size`` rows.
     ///
@@ -388,9 +382,6 @@ impl PyDistanceModel {
         to_python(py, self.model.fit_method())
     }
 
-    /// squared_distance(row)
-    /// --
-    ///
     /// The squared distance of one row (a 1-D array or a list of p
     /// numbers).
     fn squared_distance(&self, row: &Bound<'_, PyAny>) -> PyResult<f64> {
@@ -401,9 +392,6 @@ impl PyDistanceModel {
         ))
     }
 
-    /// squared_distances(rows, threads=None)
-    /// --
-    ///
     /// Squared distances of every row, a float64 array of length n.
     ///
     /// Example:
@@ -424,9 +412,6 @@ impl PyDistanceModel {
         Ok(check(d)?.into_pyarray(py))
     }
 
-    /// score(rows, origin="new", threads=None)
-    /// --
-    ///
     /// Squared distances and upper-tail p-values of every row, as a Scores
     /// object. ``origin`` selects the reference law: ``"new"`` for rows not
     /// used in the fit (F), ``"in_sample"`` for rows of the fit (Beta),
@@ -468,9 +453,6 @@ impl PyDistanceModel {
         })
     }
 
-    /// cutoff(alpha, origin="new")
-    /// --
-    ///
     /// The squared distance above which a row's p-value is below
     /// ``alpha``, under the reference law of ``origin``.
     ///
@@ -484,9 +466,6 @@ impl PyDistanceModel {
         check(self.model.cutoff(alpha, crate::model::origin(origin)?))
     }
 
-    /// reference(origin="new")
-    /// --
-    ///
     /// The reference law of a row's squared distance for ``origin``, as a
     /// dict (its kind and parameters).
     #[pyo3(signature = (origin="new"))]
@@ -495,9 +474,6 @@ impl PyDistanceModel {
         reference_dict(py, &r)
     }
 
-    /// explain(row, order=None)
-    /// --
-    ///
     /// Splits one row's squared distance into per-variable terms that add
     /// up to it: by default the variable with the largest conditional
     /// contribution first, then the largest given the first, and so on; or
@@ -529,9 +505,6 @@ impl PyDistanceModel {
         })
     }
 
-    /// scorer(alpha, origin="new")
-    /// --
-    ///
     /// A Scorer: this model with its cutoff at ``alpha`` computed once, for
     /// fast flags of single rows and batches.
     #[pyo3(signature = (alpha, origin="new"))]
@@ -544,9 +517,6 @@ impl PyDistanceModel {
         })
     }
 
-    /// save(path, binary=False)
-    /// --
-    ///
     /// Writes the model file (JSON, or the compact checksummed binary form)
     /// with its variable names. The file is written whole or not at all.
     #[pyo3(signature = (path, binary=false))]
@@ -555,9 +525,6 @@ impl PyDistanceModel {
         check(py.detach(|| file.save(&path, binary)))
     }
 
-    /// load(path)
-    /// --
-    ///
     /// Reads a model file written by ``save`` (either form).
     #[staticmethod]
     fn load(py: Python<'_>, path: PathBuf) -> PyResult<Self> {
@@ -565,26 +532,17 @@ impl PyDistanceModel {
         Ok(Self::from_file(file))
     }
 
-    /// to_bytes()
-    /// --
-    ///
     /// The model file in its compact binary form, as bytes.
     fn to_bytes<'py>(&self, py: Python<'py>) -> PyResult<Bound<'py, PyBytes>> {
         Ok(PyBytes::new(py, &self.file()?.to_bytes()))
     }
 
-    /// from_bytes(data)
-    /// --
-    ///
     /// Reads a model file from bytes (binary or JSON).
     #[staticmethod]
     fn from_bytes(data: &[u8]) -> PyResult<Self> {
         Ok(Self::from_file(check(ModelFile::from_any(data))?))
     }
 
-    /// to_json()
-    /// --
-    ///
     /// The model file as pretty-printed JSON text.
     fn to_json(&self) -> PyResult<String> {
         Ok(self.file()?.to_json())
@@ -664,9 +622,6 @@ impl PyScores {
         reference_dict(py, &self.reference)
     }
 
-    /// adjusted_p_values(adjustment="none")
-    /// --
-    ///
     /// p-values adjusted for testing many rows: ``"none"``,
     /// ``"bonferroni"`` or ``"benjamini_hochberg"``.
     #[pyo3(signature = (adjustment="none"))]
@@ -681,9 +636,6 @@ impl PyScores {
         Ok(check(mvdist::calibration::adjusted_p_values(&v, a))?.into_pyarray(py))
     }
 
-    /// flags(alpha, adjustment="none")
-    /// --
-    ///
     /// A boolean array: True where the (adjusted) p-value is at most
     /// ``alpha``. A flag is evidence that a row deserves a closer look.
     #[pyo3(signature = (alpha, adjustment="none"))]
@@ -749,18 +701,12 @@ impl PyScorer {
         origin_name(self.scorer.origin())
     }
 
-    /// flag_row(row)
-    /// --
-    ///
     /// Whether one row's squared distance exceeds the cutoff.
     fn flag_row(&self, row: &Bound<'_, PyAny>) -> PyResult<bool> {
         let r = crate::input::row(row, "row")?;
         check(r.with(|x| self.scorer.flag_row(x), |x| self.scorer.flag_row_f32(x)))
     }
 
-    /// score_row(row)
-    /// --
-    ///
     /// One row's ``(squared_distance, p_value, flagged)``.
     fn score_row(&self, row: &Bound<'_, PyAny>) -> PyResult<(f64, f64, bool)> {
         let r = crate::input::row(row, "row")?;
@@ -771,9 +717,6 @@ impl PyScorer {
         Ok((s.squared_distance, s.p_value, s.flagged))
     }
 
-    /// flag_rows(rows, threads=None)
-    /// --
-    ///
     /// Flags of every row (squared distance above the cutoff), a boolean
     /// array; no p-values are computed.
     #[pyo3(signature = (rows, threads=None))]

@@ -59,9 +59,6 @@ impl PyNormalityReport {
         self.report.caution.clone()
     }
 
-    /// p_value(test)
-    /// --
-    ///
     /// The p-value of one test by name (``"mardia_skewness"``,
     /// ``"mardia_skewness_small_sample"``, ``"mardia_kurtosis"``,
     /// ``"henze_zirkler"``, ``"royston_h"``, ``"doornik_hansen"``), or None
@@ -71,9 +68,6 @@ impl PyNormalityReport {
         Ok(self.report.summary(t).map(|s| s.p_value))
     }
 
-    /// statistic(test)
-    /// --
-    ///
     /// The statistic of one test by name, or None if it was not computed.
     fn statistic(&self, test: &str) -> PyResult<Option<f64>> {
         let t = test_named(test)?;
@@ -129,9 +123,6 @@ fn test_named(name: &str) -> PyResult<NormalityTest> {
         })
 }
 
-/// normality_report(rows, alpha=0.05, pairwise_row_limit=50000, variables=None, threads=None)
-/// --
-///
 /// Runs every multivariate normality test that applies to ``rows``
 /// (observations × variables; numpy array or DataFrame) and returns a
 /// NormalityReport. The thresholds elsewhere in mvdist assume multivariate

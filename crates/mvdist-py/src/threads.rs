@@ -67,9 +67,6 @@ pub(crate) fn run<T: Send>(
     }
 }
 
-/// thread_count(threads=None)
-/// --
-///
 /// The number of threads a call with this `threads` argument uses: the
 /// argument, else the environment variable MVDIST_THREADS, else one per
 /// core.

@@ -63,6 +63,10 @@ def test_data_frame_names_become_variables():
     m.squared_distances(df[["temp", "gravity", "ph"]].to_numpy())
     e = m.explain(x[0] + [0, 9, 0])
     assert e.top_variable == "ph"
+    # A row of a DataFrame (a Series) is read like its values.
+    assert m.squared_distance(df.iloc[3]) == m.squared_distance(x[3])
+    with pytest.raises(mvdist.MvdistError, match="single number"):
+        m.squared_distance(2.5)
     bad = df.assign(label=["a"] * 60)
     with pytest.raises(mvdist.MvdistError, match="column 3 \\('label'\\)"):
         mvdist.DistanceModel.fit(bad)

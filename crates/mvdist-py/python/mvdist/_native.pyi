@@ -9,13 +9,38 @@ from typing import Any, Callable, Hashable, Iterable, Literal, Optional, Sequenc
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+# In the order the #[pymodule] function registers them.
+__all__ = [
+    "MvdistError",
+    "__version__",
+    "CAUTION",
+    "DistanceModel",
+    "Scores",
+    "Scorer",
+    "Contributions",
+    "NormalityReport",
+    "normality_report",
+    "Classifier",
+    "Predictions",
+    "leave_one_out",
+    "MeanComparison",
+    "ScatterEquality",
+    "one_sample",
+    "two_sample",
+    "paired",
+    "scatter_equality",
+    "ControlChart",
+    "ChartPoints",
+    "thread_count",
+]
+
 # Rows are a 2-D array-like (observations × variables): a numpy array of
 # any numeric dtype and layout, nested sequences, or a pandas DataFrame
 # (which implements ``__array__``; its column names become the variables).
 _Rows = ArrayLike
 # One row: a 1-D array (or a 1 × p array) or a sequence of numbers.
 _Row = ArrayLike
-_Path = Union["os.PathLike[str]", str]
+_Path = Union[os.PathLike[str], str]
 
 _Origin = Literal["new", "in_sample", "known", "known_parameters"]
 _OriginName = Literal["new", "in_sample", "known"]
@@ -25,7 +50,7 @@ _Divisor = Literal["unbiased", "maximum_likelihood"]
 _OasFormula = Literal["published", "without_two_over_p"]
 _Stage = Literal["reweighted", "raw"]
 _Rule = Literal["linear", "quadratic"]
-_Priors = Union[Literal["proportional", "equal"], "dict[Any, float]"]
+_Priors = Union[Literal["proportional", "equal"], dict[Any, float]]
 _NormalityTest = Literal[
     "mardia_skewness",
     "mardia_skewness_small_sample",
@@ -327,7 +352,7 @@ class Classifier:
 
     @property
     def rule(self) -> _Rule:
-        """"linear" or "quadratic"."""
+        """``"linear"`` or ``"quadratic"``."""
 
     @property
     def dim(self) -> int:
@@ -413,7 +438,7 @@ class MeanComparison:
 
     @property
     def kind(self) -> _MeanTestKind:
-        """"one_sample", "paired", "two_sample_pooled" or "two_sample_unequal_scatter"."""
+        """``"one_sample"``, ``"paired"``, ``"two_sample_pooled"`` or ``"two_sample_unequal_scatter"``."""
 
     @property
     def t_squared(self) -> float:
@@ -534,7 +559,7 @@ class ControlChart:
 
     @property
     def design(self) -> _ChartDesign:
-        """"individuals" or "subgroups"."""
+        """``"individuals"`` or ``"subgroups"``."""
 
     @property
     def dim(self) -> int:
