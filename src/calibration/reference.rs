@@ -1017,7 +1017,27 @@ impl Reference {
     /// (for [`standard_normal_two_sided`](Self::standard_normal_two_sided),
     /// `P(|Z| > |x|)`). NaN for NaN input.
     pub fn p_value(&self, x: f64) -> f64 {
-        self.tails(x).1
+        if x.is_nan() {
+            return f64::NAN;
+        }
+        // The upper tails alone, where a finite sum gives them faster than
+        // the pair of tails (even degrees of freedom; see the distributions).
+        match self.law {
+            Law::ChiSquare { dof } => match ChiSquared::new(dof) {
+                Ok(c) if x > 0.0 => c.sf(x),
+                _ => self.tails(x).1,
+            },
+            Law::ScaledBeta { scale, a, b } => match BetaDistribution::new(a, b) {
+                Ok(d) if x > 0.0 && x < scale => {
+                    d.sf_with_complement(x / scale, (scale - x) / scale)
+                }
+                _ => self.tails(x).1,
+            },
+            Law::ScaledF { scale, d1, d2 } => {
+                FDistribution::new(d1, d2).map_or(f64::NAN, |f| f.sf(x / scale))
+            }
+            _ => self.tails(x).1,
+        }
     }
 
     /// Lower tail probability `P(X ≤ x)`, `1 − p_value(x)` computed

@@ -8,7 +8,7 @@ pub(crate) mod special;
 
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
-use special::{beta_tails, gamma_tails, solve_decreasing};
+use special::{beta_tails, beta_upper_whole, gamma_tails, gamma_upper_whole, solve_decreasing};
 
 /// `Ok` for a finite positive `v`, else an error naming the parameter.
 pub(crate) fn positive(name: &'static str, v: f64) -> Result<()> {
@@ -50,8 +50,14 @@ impl ChiSquared {
         gamma_tails(0.5 * self.dof, 0.5 * x.max(0.0))
     }
 
-    /// Upper tail `P(X > x)`.
+    /// Upper tail `P(X > x)`: a finite sum for even degrees of freedom up
+    /// to 128, else the upper half of [`tails`](Self::tails).
     pub fn sf(&self, x: f64) -> f64 {
+        if x > 0.0 {
+            if let Some(q) = gamma_upper_whole(0.5 * self.dof, 0.5 * x) {
+                return q;
+            }
+        }
         self.tails(x).1
     }
 
@@ -108,6 +114,18 @@ impl BetaDistribution {
             return (1.0, 0.0);
         }
         beta_tails(self.a, self.b, x, one_minus_x)
+    }
+
+    /// Upper tail `P(X > x)` with `1 − x` supplied separately: a finite
+    /// sum for a whole-number first shape up to 64, else the upper half of
+    /// [`tails_with_complement`](Self::tails_with_complement).
+    pub fn sf_with_complement(&self, x: f64, one_minus_x: f64) -> f64 {
+        if x > 0.0 && one_minus_x > 0.0 {
+            if let Some(q) = beta_upper_whole(self.a, self.b, x, one_minus_x) {
+                return q;
+            }
+        }
+        self.tails_with_complement(x, one_minus_x).1
     }
 
     /// Upper tail `P(X > x)`.
@@ -176,34 +194,52 @@ impl FDistribution {
     /// `(P(X ≤ x), P(X > x))`, through the incomplete beta function with
     /// both `d1·x/(d1·x + d2)` and its complement formed directly.
     pub fn tails(&self, x: f64) -> (f64, f64) {
+        match self.beta_arguments(x) {
+            Ok((lower_arg, upper_arg)) => {
+                beta_tails(0.5 * self.d1, 0.5 * self.d2, lower_arg, upper_arg)
+            }
+            Err(tails) => tails,
+        }
+    }
+
+    /// The incomplete-beta argument `d1·x/(d1·x + d2)` and its complement,
+    /// or the tails themselves at the edges (NaN, `x ≤ 0`, infinity).
+    fn beta_arguments(&self, x: f64) -> std::result::Result<(f64, f64), (f64, f64)> {
         if x.is_nan() {
-            return (f64::NAN, f64::NAN);
+            return Err((f64::NAN, f64::NAN));
         }
         if x <= 0.0 {
-            return (0.0, 1.0);
+            return Err((0.0, 1.0));
         }
         if x == f64::INFINITY {
-            return (1.0, 0.0);
+            return Err((1.0, 0.0));
         }
         // With r = d2/(d1·x): d1·x/(d1·x + d2) = 1/(1 + r) and
         // d2/(d1·x + d2) = r/(1 + r). Formed from r, neither overflows
         // when d1·x would.
         let r = self.d2 / self.d1 / x;
         if r == f64::INFINITY {
-            return (0.0, 1.0);
+            return Err((0.0, 1.0));
         }
-        let (lower_arg, upper_arg) = if r > 1.0 {
+        Ok(if r > 1.0 {
             let g = 1.0 / r;
             (g / (1.0 + g), 1.0 / (1.0 + g))
         } else {
             (1.0 / (1.0 + r), r / (1.0 + r))
-        };
-        beta_tails(0.5 * self.d1, 0.5 * self.d2, lower_arg, upper_arg)
+        })
     }
 
-    /// Upper tail `P(X > x)`.
+    /// Upper tail `P(X > x)`: a finite sum for even numerator degrees of
+    /// freedom up to 128, else the upper half of [`tails`](Self::tails).
     pub fn sf(&self, x: f64) -> f64 {
-        self.tails(x).1
+        match self.beta_arguments(x) {
+            Ok((lower_arg, upper_arg)) => {
+                beta_upper_whole(0.5 * self.d1, 0.5 * self.d2, lower_arg, upper_arg).unwrap_or_else(
+                    || beta_tails(0.5 * self.d1, 0.5 * self.d2, lower_arg, upper_arg).1,
+                )
+            }
+            Err((_, upper)) => upper,
+        }
     }
 
     #[cfg(test)]

@@ -10,6 +10,7 @@
 use crate::error::{Error, Result};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 use crate::kernels::lanes::{fmadd, LANES};
 /// Rows per parallel task.
@@ -194,6 +195,109 @@ fn block_body<const FMA: bool>(
     }
 }
 
+/// [`block_body`] for a dimension known at compile time, on a row-major
+/// block: the eight-row groups are read straight from the slice and the
+/// triangular product unrolls into straight-line code. The operations and
+/// their order are those of [`lanes_kernel`] (its zero terms above the
+/// diagonal add exact zeros), so the results are the same bit for bit.
+/// Returns `false`, having written nothing, if the block is not row-major.
+#[inline(always)]
+fn block_fixed<const P: usize, const FMA: bool>(
+    w: &[f64],
+    mu: &[f64],
+    x: ArrayView2<'_, f64>,
+    out: &mut [f64],
+    buf: &mut Vec<[f64; LANES]>,
+) -> bool {
+    let Some(data) = x.as_slice() else {
+        return false;
+    };
+    let mut wm = [[0.0f64; P]; P];
+    for (i, row) in wm.iter_mut().enumerate() {
+        row[..=i].copy_from_slice(&w[i * P..i * P + i + 1]);
+    }
+    let mut m = [0.0f64; P];
+    m.copy_from_slice(mu);
+    let n = x.nrows();
+    let full = n - n % LANES;
+    for (group, o) in data[..full * P]
+        .chunks_exact(LANES * P)
+        .zip(out[..full].chunks_exact_mut(LANES))
+    {
+        let mut c = [[0.0f64; LANES]; P];
+        for (r, row) in group.chunks_exact(P).enumerate() {
+            for j in 0..P {
+                c[j][r] = row[j] - m[j];
+            }
+        }
+        let mut d2 = [0.0f64; LANES];
+        for i in 0..P {
+            let mut z = [0.0f64; LANES];
+            for j in 0..=i {
+                for k in 0..LANES {
+                    z[k] = fmadd::<FMA>(wm[i][j], c[j][k], z[k]);
+                }
+            }
+            for k in 0..LANES {
+                d2[k] = fmadd::<FMA>(z[k], z[k], d2[k]);
+            }
+        }
+        o.copy_from_slice(&d2);
+    }
+    if full < n {
+        block_body::<FMA>(
+            w,
+            mu,
+            false,
+            x.slice(ndarray::s![full.., ..]),
+            &mut out[full..],
+            buf,
+        );
+    }
+    true
+}
+
+/// The batch block kernel, with the small dimensions specialized.
+#[inline(always)]
+fn block_sized<const FMA: bool>(
+    w: &[f64],
+    mu: &[f64],
+    diagonal: bool,
+    x: ArrayView2<'_, f64>,
+    out: &mut [f64],
+    buf: &mut Vec<[f64; LANES]>,
+) {
+    if !diagonal {
+        let done = match mu.len() {
+            2 => block_fixed::<2, FMA>(w, mu, x, out, buf),
+            3 => block_fixed::<3, FMA>(w, mu, x, out, buf),
+            4 => block_fixed::<4, FMA>(w, mu, x, out, buf),
+            5 => block_fixed::<5, FMA>(w, mu, x, out, buf),
+            6 => block_fixed::<6, FMA>(w, mu, x, out, buf),
+            7 => block_fixed::<7, FMA>(w, mu, x, out, buf),
+            8 => block_fixed::<8, FMA>(w, mu, x, out, buf),
+            _ => false,
+        };
+        if done {
+            return;
+        }
+    }
+    block_body::<FMA>(w, mu, diagonal, x, out, buf)
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f")]
+fn block_avx512(
+    w: &[f64],
+    mu: &[f64],
+    diagonal: bool,
+    x: ArrayView2<'_, f64>,
+    out: &mut [f64],
+    buf: &mut Vec<[f64; LANES]>,
+) {
+    block_sized::<true>(w, mu, diagonal, x, out, buf)
+}
+
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2,fma")]
 fn block_avx2(
@@ -204,7 +308,7 @@ fn block_avx2(
     out: &mut [f64],
     buf: &mut Vec<[f64; LANES]>,
 ) {
-    block_body::<true>(w, mu, diagonal, x, out, buf)
+    block_sized::<true>(w, mu, diagonal, x, out, buf)
 }
 
 fn block_dispatch(
@@ -217,13 +321,27 @@ fn block_dispatch(
 ) {
     #[cfg(target_arch = "x86_64")]
     {
+        // AVX-512 pays off for the unrolled small dimensions only; for
+        // larger ones the generic kernel measured slower with it (p = 32).
+        if !diagonal && (2..=8).contains(&mu.len()) && has_avx512() {
+            // SAFETY: the CPU supports AVX-512F, which implies FMA
+            // (checked at run time).
+            unsafe { block_avx512(w, mu, diagonal, x, out, buf) };
+            return;
+        }
         if has_avx2_fma() {
             // SAFETY: the CPU supports AVX2 and FMA (checked at run time).
             unsafe { block_avx2(w, mu, diagonal, x, out, buf) };
             return;
         }
     }
-    block_body::<false>(w, mu, diagonal, x, out, buf)
+    block_sized::<false>(w, mu, diagonal, x, out, buf)
+}
+
+#[cfg(target_arch = "x86_64")]
+#[inline]
+fn has_avx512() -> bool {
+    std::arch::is_x86_feature_detected!("avx512f") && std::arch::is_x86_feature_detected!("fma")
 }
 
 #[cfg(target_arch = "x86_64")]
@@ -244,7 +362,7 @@ pub(crate) fn batch_squared_distances(
     out: &mut [f64],
 ) -> Result<()> {
     let (w, diagonal) = (factor.w, factor.diagonal);
-    in_tasks(
+    let bad = in_tasks(
         x.nrows() * mu.len(),
         out,
         |start, chunk, buf: &mut Vec<[f64; LANES]>| {
@@ -252,7 +370,7 @@ pub(crate) fn batch_squared_distances(
             block_dispatch(w, mu, diagonal, rows, chunk, buf);
         },
     );
-    first_non_finite(x, out)
+    first_non_finite(x, bad)
 }
 
 /// As [`batch_squared_distances`] for single-precision rows: each task
@@ -265,7 +383,7 @@ pub(crate) fn batch_squared_distances_f32(
     out: &mut [f64],
 ) -> Result<()> {
     let (w, diagonal, p) = (factor.w, factor.diagonal, mu.len());
-    in_tasks(
+    let bad = in_tasks(
         x.nrows() * p,
         out,
         |start, chunk, (buf, wide): &mut (Vec<[f64; LANES]>, Vec<f64>)| {
@@ -276,30 +394,42 @@ pub(crate) fn batch_squared_distances_f32(
             block_dispatch(w, mu, diagonal, view, chunk, buf);
         },
     );
-    first_non_finite(x, out)
+    first_non_finite(x, bad)
 }
 
 /// Runs `task(first_row, chunk_of_out, scratch)` over `out` in blocks of
 /// [`TASK_ROWS`], on the calling thread below [`SEQUENTIAL_BELOW`] values
 /// (`work`) and on the caller's rayon pool above, with per-task scratch.
+/// Each task then checks its block while it is still in cache; the result
+/// is the first row whose value is not finite, if any.
 fn in_tasks<S: Default + Send>(
     work: usize,
     out: &mut [f64],
     task: impl Fn(usize, &mut [f64], &mut S) + Sync,
-) {
+) -> Option<usize> {
+    let first_bad = |chunk: &[f64]| chunk.iter().position(|v| !v.is_finite());
     if work < SEQUENTIAL_BELOW {
         task(0, out, &mut S::default());
+        first_bad(out)
     } else {
+        let first = AtomicUsize::new(usize::MAX);
         out.par_chunks_mut(TASK_ROWS)
             .enumerate()
-            .for_each_init(S::default, |s, (t, chunk)| task(t * TASK_ROWS, chunk, s));
+            .for_each_init(S::default, |s, (t, chunk)| {
+                task(t * TASK_ROWS, chunk, s);
+                if let Some(i) = first_bad(chunk) {
+                    first.fetch_min(t * TASK_ROWS + i, Ordering::Relaxed);
+                }
+            });
+        let row = first.into_inner();
+        (row != usize::MAX).then_some(row)
     }
 }
 
 /// `Ok` if every result is finite, else the cause for the first row that
 /// is not ([`non_finite_cause`]).
-fn first_non_finite<T: Copy + Into<f64>>(x: ArrayView2<'_, T>, out: &[f64]) -> Result<()> {
-    match out.iter().position(|v| !v.is_finite()) {
+fn first_non_finite<T: Copy + Into<f64>>(x: ArrayView2<'_, T>, row: Option<usize>) -> Result<()> {
+    match row {
         Some(row) => Err(non_finite_cause(x, row)),
         None => Ok(()),
     }
