@@ -270,19 +270,7 @@ pub(crate) fn beta_upper_whole(a: f64, b: f64, x: f64, y: f64) -> Option<f64> {
     } else {
         y.powf(b)
     };
-    if !(front >= f64::MIN_POSITIVE) {
-        return None;
-    }
-    let mut term = 1.0;
-    let mut sum = 1.0;
-    let mut k = 1.0;
-    while k < a {
-        term *= (b + k - 1.0) / k * x;
-        sum += term;
-        k += 1.0;
-    }
-    let q = front * sum;
-    q.is_finite().then_some(q.min(1.0))
+    front_times_terms(front, a, |k| (b + k - 1.0) / k * x)
 }
 
 /// Upper tail `Q(a, x)` of the regularized incomplete gamma function for a
@@ -293,7 +281,13 @@ pub(crate) fn gamma_upper_whole(a: f64, x: f64) -> Option<f64> {
     if !(1.0..=WHOLE_SHAPE_LIMIT).contains(&a) || a.fract() != 0.0 || !(x > 0.0) {
         return None;
     }
-    let front = (-x).exp();
+    front_times_terms((-x).exp(), a, |k| x / k)
+}
+
+/// `front · Σ_{k<a} t_k` with `t_0 = 1` and `t_k = t_{k−1} · ratio(k)`,
+/// capped at 1 (a probability, off by rounding at most); `None` when
+/// `front` is not a normal number or the result is not finite.
+fn front_times_terms(front: f64, a: f64, ratio: impl Fn(f64) -> f64) -> Option<f64> {
     if !(front >= f64::MIN_POSITIVE) {
         return None;
     }
@@ -301,7 +295,7 @@ pub(crate) fn gamma_upper_whole(a: f64, x: f64) -> Option<f64> {
     let mut sum = 1.0;
     let mut k = 1.0;
     while k < a {
-        term *= x / k;
+        term *= ratio(k);
         sum += term;
         k += 1.0;
     }
