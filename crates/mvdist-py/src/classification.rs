@@ -282,6 +282,15 @@ impl PyClassifier {
 type Reduced<'py> = (Bound<'py, PyAny>, (String, Py<PyList>));
 
 /// Class predictions for a batch of rows.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rows = np.array([[0.0, 0.1], [0.2, -0.1], [-0.1, 0.0], [0.1, 0.2],
+///     ...                  [5.0, 5.1], [5.2, 4.9], [4.9, 5.0], [5.1, 5.2]])
+///     >>> c = mvdist.Classifier.fit(rows, [0, 0, 0, 0, 1, 1, 1, 1])
+///     >>> p = c.predict([[0.0, 0.0], [5.0, 5.0]])
+///     >>> p.labels, p.posteriors.shape
+///     ([0, 1], (2, 2))
 #[pyclass(name = "Predictions", module = "mvdist", frozen)]
 pub(crate) struct PyPredictions {
     inner: Predictions,
@@ -349,6 +358,13 @@ impl PyPredictions {
 /// classifier fitted without it. Returns a dict with ``error_rate``,
 /// ``assigned`` (labels), ``confusion`` (groups × groups counts, rows
 /// actual, columns assigned), ``classes``, ``posteriors``.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rng = np.random.default_rng(9)
+///     >>> rows = np.vstack([rng.normal(0, 1, (20, 2)), rng.normal(6, 1, (20, 2))])
+///     >>> mvdist.leave_one_out(rows, [0] * 20 + [1] * 20)["error_rate"]
+///     0.0
 #[pyfunction]
 #[pyo3(signature = (rows, labels, rule="linear", priors=None, divisor="unbiased"))]
 pub(crate) fn leave_one_out<'py>(

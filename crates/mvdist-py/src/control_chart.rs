@@ -251,6 +251,13 @@ impl PyControlChart {
 
 /// Charted points: arrays of T², limits, p-values and signals, and the
 /// full records (status, diagnosis) as dicts.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> chart = mvdist.ControlChart.individuals(np.random.default_rng(8).normal(size=(60, 2)))
+///     >>> points = chart.monitor([[0.0, 0.0], [9.0, -9.0]])
+///     >>> len(points), points.signal.tolist()
+///     (2, [False, True])
 #[pyclass(name = "ChartPoints", module = "mvdist", frozen)]
 pub(crate) struct PyChartPoints {
     points: Vec<ChartPoint>,

@@ -11,6 +11,13 @@ use pyo3::prelude::*;
 
 /// The result of a Hotelling T² test of means: the statistic, its F
 /// transform and p-value, and simultaneous and Bonferroni intervals.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rows = np.random.default_rng(10).normal(size=(30, 2)) + [0.0, 1.0]
+///     >>> t = mvdist.mean_tests.one_sample(rows, [0.0, 0.0])
+///     >>> t.rejects(0.01), t.kind
+///     (True, 'one_sample')
 #[pyclass(name = "MeanComparison", module = "mvdist", frozen)]
 pub(crate) struct PyMeanComparison {
     inner: MeanComparison,
@@ -147,6 +154,14 @@ pub(crate) fn one_sample(
 /// Hotelling's two-sample T² test of equal means, with a pooled scatter
 /// (``equal_scatter=True``) or without assuming equal scatter
 /// (Krishnamoorthy and Yu's modified Nel–Van der Merwe test).
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rng = np.random.default_rng(11)
+///     >>> a, b = rng.normal(size=(25, 3)), rng.normal(size=(30, 3))
+///     >>> t = mvdist.mean_tests.two_sample(a, b)
+///     >>> t.numerator_dof, t.denominator_dof
+///     (3.0, 51.0)
 #[pyfunction]
 #[pyo3(signature = (first, second, equal_scatter=true))]
 pub(crate) fn two_sample(
@@ -171,6 +186,15 @@ pub(crate) fn two_sample(
 
 /// The paired T² test: row i of ``first`` and of ``second`` are two
 /// measurements of the same unit.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rng = np.random.default_rng(12)
+///     >>> before = rng.normal(size=(15, 2))
+///     >>> after = before + 0.5 + rng.normal(scale=0.3, size=(15, 2))
+///     >>> t = mvdist.mean_tests.paired(before, after)
+///     >>> t.kind
+///     'paired'
 #[pyfunction]
 pub(crate) fn paired(
     py: Python<'_>,
@@ -186,6 +210,13 @@ pub(crate) fn paired(
 }
 
 /// Box's M test that several groups share one scatter matrix.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> rng = np.random.default_rng(13)
+///     >>> m = mvdist.mean_tests.scatter_equality([rng.normal(size=(40, 2)), 3 * rng.normal(size=(40, 2))])
+///     >>> m.p_value < 0.001
+///     True
 #[pyclass(name = "ScatterEquality", module = "mvdist", frozen)]
 pub(crate) struct PyScatterEquality {
     inner: ScatterEquality,

@@ -588,6 +588,13 @@ pub(crate) fn reference_dict(py: Python<'_>, r: &Reference) -> PyResult<Py<PyAny
 /// ``squared_distances`` and ``p_values`` are float64 arrays (one value per
 /// row); ``flags(alpha, adjustment)`` marks the rows whose (adjusted)
 /// p-value is at most ``alpha``. A flag is evidence, not a verdict.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> m = mvdist.DistanceModel.from_parts([0.0, 0.0], np.eye(2), 10**6)
+///     >>> s = m.score([[1.0, 1.0], [4.0, 4.0]], origin="known")
+///     >>> s.p_values.round(4).tolist(), s.flags(0.01).tolist()
+///     ([0.3679, 0.0], [False, True])
 #[pyclass(name = "Scores", module = "mvdist", frozen)]
 pub(crate) struct PyScores {
     squared_distances: Py<PyArray1<f64>>,
@@ -751,6 +758,12 @@ impl PyScorer {
 }
 
 /// Per-variable terms of one row's squared distance; they add up to it.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> m = mvdist.DistanceModel.from_parts([0.0, 0.0], [[1.0, 0.0], [0.0, 4.0]], 100, ["a", "b"])
+///     >>> m.explain([2.0, 2.0]).in_order()
+///     [('a', 4.0), ('b', 1.0)]
 #[pyclass(name = "Contributions", module = "mvdist", frozen)]
 pub(crate) struct PyContributions {
     order: Vec<usize>,

@@ -12,6 +12,12 @@ use pyo3::prelude::*;
 ///
 /// A non-significant result does not show that the rows are normal; see
 /// ``caution``.
+///
+/// Example:
+///     >>> import numpy as np, mvdist
+///     >>> report = mvdist.normality_report(np.random.default_rng(14).normal(size=(100, 2)))
+///     >>> [t["test"] for t in report.tests][:2]
+///     ['mardia_skewness', 'mardia_skewness_small_sample']
 #[pyclass(name = "NormalityReport", module = "mvdist", frozen)]
 pub(crate) struct PyNormalityReport {
     report: NormalityReport,

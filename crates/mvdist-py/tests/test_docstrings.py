@@ -23,6 +23,8 @@ def test_every_public_item_has_a_docstring():
         if isinstance(item, str) or name.startswith("__"):
             continue
         assert item.__doc__, name
+        if callable(item) and name != "MvdistError":
+            assert "Example:" in item.__doc__, f"{name} has no example"
         if isinstance(item, type):
             for attr, member in vars(item).items():
                 if not attr.startswith("_"):
