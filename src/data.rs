@@ -153,6 +153,12 @@ pub fn rows_from_slice(data: &[f64], columns: usize) -> Result<ArrayView2<'_, f6
 /// A single row of `p` finite values: [`Error::ShapeMismatch`] for a wrong
 /// length, [`Error::NonFinite`] (naming `row` and the column) otherwise.
 pub(crate) fn check_row(values: &[f64], p: usize, row: usize) -> Result<()> {
+    check_length(values, p)?;
+    check_row_finite(values, row)
+}
+
+/// A row must have `p` values.
+pub(crate) fn check_length(values: &[f64], p: usize) -> Result<()> {
     if values.len() != p {
         return Err(Error::ShapeMismatch {
             what: "row length (number of columns)",
@@ -160,7 +166,7 @@ pub(crate) fn check_row(values: &[f64], p: usize, row: usize) -> Result<()> {
             found: values.len(),
         });
     }
-    check_row_finite(values, row)
+    Ok(())
 }
 
 /// The first non-finite value of a row, as an error naming `row`.

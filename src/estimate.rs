@@ -64,6 +64,16 @@ pub enum FitMethod {
         /// The target.
         target: ShrinkageTarget,
     },
+    /// The maximum-likelihood fit from rows with empty cells by the EM
+    /// algorithm ([`crate::incomplete`]).
+    ExpectationMaximization {
+        /// The iterations run.
+        iterations: usize,
+        /// Whether the tolerance was met.
+        converged: bool,
+        /// The number of empty cells in the fitted rows.
+        missing_cells: usize,
+    },
     /// Minimum covariance determinant by FastMCD
     /// ([`crate::robust::minimum_covariance_determinant`]).
     Mcd {

@@ -96,6 +96,8 @@ pub mod drift;
 mod error;
 mod estimate;
 pub mod explain;
+pub mod held_out;
+pub mod incomplete;
 mod kernels;
 pub mod mean_tests;
 mod model;
@@ -110,11 +112,13 @@ pub mod whitening;
 
 pub use ndarray;
 
-pub use calibration::{Adjustment, Reference, RowOrigin};
+pub use calibration::{Adjustment, EmpiricalPValue, PValueBasis, Reference, RowOrigin};
 pub use error::{Error, ErrorKind, Result};
 pub use estimate::{Estimate, FitMethod};
 pub use explain::{ContributionOrder, Contributions};
-pub use model::{DistanceModel, RowScore, Scores};
+pub use model::{
+    DistanceModel, ObservedContributions, ObservedRowScore, ObservedScores, RowScore, Scores,
+};
 pub use moments::{Divisor, MomentAccumulator};
 pub use scatter::Scatter;
 pub use scorer::Scorer;
@@ -142,5 +146,8 @@ const _: () = {
     shared::<drift::SlidingWindowModel>();
     shared::<control_chart::ControlChart>();
     shared::<model_file::ModelFile>();
+    shared::<calibration::EmpiricalReference>();
+    shared::<held_out::CalibrationCheck>();
+    shared::<incomplete::EmFit>();
     shared::<Error>();
 };

@@ -43,12 +43,14 @@
 //! ```
 
 mod adjust;
+mod empirical;
 pub(crate) mod hardin_rocke;
 mod reference;
 mod statistic;
 
 pub(crate) use crate::distributions::check_probability;
 pub use adjust::{adjusted_p_values, Adjustment};
+pub use empirical::{EmpiricalPValue, EmpiricalReference};
 pub use reference::{Law, Reference, ReferenceKind};
 pub use statistic::TestStatistic;
 
@@ -76,4 +78,31 @@ pub enum RowOrigin {
     /// large.
     #[serde(alias = "known_parameters")]
     KnownParameters,
+}
+
+/// Where the p-values of a batch of scores come from.
+#[derive(Clone, Copy, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+#[non_exhaustive]
+pub enum PValueBasis {
+    /// A reference law (which assumes multivariate normal rows).
+    Law(Reference),
+    /// The model's held-out calibration rows ([`EmpiricalReference`]):
+    /// distribution-free.
+    HeldOut {
+        /// The number of calibration rows `m`.
+        rows: usize,
+        /// Which empirical p-value.
+        kind: EmpiricalPValue,
+    },
+}
+
+impl PValueBasis {
+    /// The reference law, for p-values from a law.
+    pub fn reference(&self) -> Option<Reference> {
+        match self {
+            PValueBasis::Law(r) => Some(*r),
+            PValueBasis::HeldOut { .. } => None,
+        }
+    }
 }

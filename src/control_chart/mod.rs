@@ -79,7 +79,7 @@ mod false_alarm;
 mod limits;
 mod point;
 mod settings;
-mod svg;
+pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
 pub use diagnosis::{RatedTerm, SignalDiagnosis};

@@ -14,7 +14,7 @@ const TOP: f64 = 72.0;
 const BOTTOM: f64 = 84.0;
 
 /// Escapes text for XML.
-fn escape(s: &str) -> String {
+pub(crate) fn escape(s: &str) -> String {
     s.replace('&', "&amp;")
         .replace('<', "&lt;")
         .replace('>', "&gt;")
@@ -85,7 +85,7 @@ impl Axis {
 }
 
 /// 1, 2 or 5 times a power of ten, at least `raw`.
-fn nice_step(raw: f64) -> f64 {
+pub(crate) fn nice_step(raw: f64) -> f64 {
     if !(raw > 0.0 && raw.is_finite()) {
         return 1.0;
     }

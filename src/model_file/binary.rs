@@ -12,7 +12,12 @@
 //! | per variable: 4 + k | name: length (u32), then UTF-8 |
 //! | 8·p | location |
 //! | 8·p(p+1)/2 | scatter, lower triangle by rows |
+//! | 8 | (version 2) number `m` of calibration rows (u64; 0 for none) |
+//! | 8·m | (version 2) their squared distances, increasing |
 //! | 4 | CRC-32 of everything before it |
+//!
+//! Version 1 files end after the scatter; they are read as models without
+//! calibration rows.
 
 use super::crc32::crc32;
 use super::{ModelFile, FORMAT_VERSION};
@@ -47,6 +52,11 @@ pub(crate) fn encode(file: &ModelFile) -> Vec<u8> {
         for j in 0..=i {
             out.extend_from_slice(&s[(i, j)].to_le_bytes());
         }
+    }
+    let calibration = m.calibration().map_or(&[][..], |c| c.squared_distances());
+    out.extend_from_slice(&(calibration.len() as u64).to_le_bytes());
+    for &v in calibration {
+        out.extend_from_slice(&v.to_le_bytes());
     }
     let crc = crc32(&out);
     out.extend_from_slice(&crc.to_le_bytes());
@@ -151,12 +161,35 @@ pub(crate) fn decode(bytes: &[u8]) -> Result<ModelFile> {
             scatter[j * p + i] = v;
         }
     }
+    let mut calibration = None;
+    if version >= 2 {
+        let m = c.u64("number of calibration rows")?;
+        // Each value takes 8 bytes: a count the file cannot hold is damage.
+        if m > ((body.len() - c.at) / 8) as u64 {
+            return Err(bad(format!(
+                "truncated: the file declares {m} calibration rows but holds fewer"
+            )));
+        }
+        if m > 0 {
+            let mut values = Vec::with_capacity(m as usize);
+            for _ in 0..m {
+                values.push(c.f64("calibration rows")?);
+            }
+            calibration = Some(
+                crate::calibration::EmpiricalReference::from_squared_distances(values)
+                    .map_err(|e| bad(format!("calibration rows: {e}")))?,
+            );
+        }
+    }
     if c.at != body.len() {
-        return Err(bad("unexpected bytes after the scatter"));
+        return Err(bad("unexpected bytes after the model"));
     }
     let scatter = Scatter::from_row_major(&scatter, p).map_err(|e| bad(format!("scatter: {e}")))?;
     let n = usize::try_from(n).map_err(|_| bad("sample size too large"))?;
-    let model = DistanceModel::from_parts(location, scatter, n, estimator)
+    let mut model = DistanceModel::from_parts(location, scatter, n, estimator)
         .map_err(|e| bad(e.to_string()))?;
+    if let Some(c) = calibration {
+        model = model.with_calibration(c);
+    }
     ModelFile::new(variables, model).map_err(|e| bad(e.to_string()))
 }

@@ -5,12 +5,13 @@
 //! ```json
 //! {
 //!   "format": "mvdist-model",
-//!   "format_version": 1,
+//!   "format_version": 2,
 //!   "variables": ["gravity", "ph"],
 //!   "n": 120,
 //!   "location": [1.048, 4.31],
 //!   "scatter": [[1.2e-5, 3.1e-5], [3.1e-5, 0.0121]],
 //!   "estimator": { "kind": "classical", "divisor": "unbiased" },
+//!   "calibration": { "squared_distances": [0.08, 0.71, 1.9, 4.4] },
 //!   "checksum": "crc32:5a1c03f2"
 //! }
 //! ```
@@ -24,6 +25,10 @@
 //! * `scatter` is the `p × p` matrix as nested rows; loading re-validates it
 //!   (a scatter that is no longer positive definite is refused).
 //! * `estimator` records how the location and scatter were estimated.
+//! * `calibration` (format version 2, optional) holds the squared distances
+//!   of held-out reference rows in increasing order, for distribution-free
+//!   p-values ([`crate::held_out`]). Version 1 files have no such field and
+//!   read as models without calibration rows.
 //! * `checksum` is the CRC-32 of the compact JSON of all other fields, in
 //!   the order above, as eight hex digits. It is always written; on loading
 //!   it is verified when present (a hand-written file may leave it out).
@@ -55,6 +60,7 @@
 mod binary;
 mod crc32;
 
+use crate::calibration::EmpiricalReference;
 use crate::error::{Error, Result};
 use crate::estimate::FitMethod;
 use crate::model::DistanceModel;
@@ -63,7 +69,7 @@ use serde::{Deserialize, Serialize};
 use std::path::Path;
 
 /// The format version this build writes and the newest it reads.
-pub const FORMAT_VERSION: u32 = 1;
+pub const FORMAT_VERSION: u32 = 2;
 
 const FORMAT_NAME: &str = "mvdist-model";
 
@@ -83,6 +89,8 @@ struct FileData {
     location: Vec<f64>,
     scatter: Scatter,
     estimator: FitMethod,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    calibration: Option<EmpiricalReference>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     checksum: Option<String>,
 }
@@ -184,6 +192,7 @@ impl ModelFile {
             location: self.model.location().to_vec(),
             scatter: self.model.scatter().clone(),
             estimator: self.model.fit_method().clone(),
+            calibration: self.model.calibration().cloned(),
             checksum: None,
         };
         let checksum = checksum_of(&data);
@@ -293,10 +302,14 @@ impl ModelFile {
                 });
             }
         }
-        let model = DistanceModel::from_parts(data.location, data.scatter, data.n, data.estimator)
-            .map_err(|e| Error::Format {
-                reason: e.to_string(),
-            })?;
+        let mut model =
+            DistanceModel::from_parts(data.location, data.scatter, data.n, data.estimator)
+                .map_err(|e| Error::Format {
+                    reason: e.to_string(),
+                })?;
+        if let Some(c) = data.calibration {
+            model = model.with_calibration(c);
+        }
         ModelFile::new(data.variables, model).map_err(|e| Error::Format {
             reason: e.to_string(),
         })

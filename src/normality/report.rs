@@ -191,14 +191,17 @@ pub struct VariableSummary {
 pub struct NormalityOptions {
     alpha: f64,
     pairwise_row_limit: usize,
+    hold_out: Option<f64>,
 }
 
 impl Default for NormalityOptions {
-    /// `alpha = 0.05`; Henze–Zirkler up to 50 000 rows.
+    /// `alpha = 0.05`; Henze–Zirkler up to 50 000 rows; no calibration
+    /// check.
     fn default() -> Self {
         NormalityOptions {
             alpha: 0.05,
             pairwise_row_limit: 50_000,
+            hold_out: None,
         }
     }
 }
@@ -218,6 +221,21 @@ impl NormalityOptions {
     pub fn with_pairwise_row_limit(mut self, limit: usize) -> Self {
         self.pairwise_row_limit = limit;
         self
+    }
+
+    /// Adds a check of the F cutoffs ([`crate::held_out::CalibrationCheck`])
+    /// to the report: a classical model is fitted on the rows without this
+    /// fraction (a seeded split, seed 0), and the held-out rows' exceedance
+    /// rates are compared with 5%, 1% and 0.1% (default: no check; `compute`
+    /// rejects a fraction outside (0, 1)).
+    pub fn with_calibration_check(mut self, hold_out_fraction: f64) -> Self {
+        self.hold_out = Some(hold_out_fraction);
+        self
+    }
+
+    /// The held-out fraction of the calibration check, if one is asked for.
+    pub fn calibration_check(&self) -> Option<f64> {
+        self.hold_out
     }
 
     fn validate(&self) -> Result<()> {
@@ -281,6 +299,10 @@ pub struct NormalityReport {
     /// Why the per-variable Shapiro–Wilk results are missing, if they are.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub shapiro_wilk_not_computed: Option<String>,
+    /// The check of the F cutoffs on held-out rows, when asked for
+    /// ([`NormalityOptions::with_calibration_check`]).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<crate::held_out::CalibrationCheck>,
     /// How to read (and not read) the results.
     pub caution: String,
 }
@@ -435,6 +457,16 @@ impl NormalityReport {
                 shapiro_wilk_p_value: s.shapiro_wilk.map(|t| t.p_value()),
             })
             .collect();
+        let calibration = match options.hold_out {
+            None => None,
+            Some(fraction) => {
+                let split = crate::held_out::HoldOutOptions::default().with_fraction(fraction);
+                let model = crate::held_out::fit_holding_out(rows, &split, |r| {
+                    crate::DistanceModel::fit(r)
+                })?;
+                Some(crate::held_out::CalibrationCheck::of_model(&model)?)
+            }
+        };
         Ok(NormalityReport {
             rows: n,
             columns: p,
@@ -442,6 +474,7 @@ impl NormalityReport {
             tests,
             per_variable,
             shapiro_wilk_not_computed,
+            calibration,
             caution: CAUTION.to_string(),
         })
     }

@@ -11,7 +11,14 @@ const LAYERS: &[(&str, &[&str])] = &[
     ("foundation", &["error", "data", "kernels", "distributions"]),
     (
         "estimation",
-        &["scatter", "moments", "estimate", "shrinkage", "robust"],
+        &[
+            "scatter",
+            "moments",
+            "estimate",
+            "shrinkage",
+            "robust",
+            "incomplete",
+        ],
     ),
     (
         "model",
@@ -28,7 +35,13 @@ const LAYERS: &[(&str, &[&str])] = &[
     ),
     (
         "analyses",
-        &["classification", "normality", "mean_tests", "control_chart"],
+        &[
+            "classification",
+            "normality",
+            "mean_tests",
+            "control_chart",
+            "held_out",
+        ],
     ),
 ];
 
@@ -46,12 +59,17 @@ const ROOT_NAMES: &[(&str, &str)] = &[
     ("Reference", "calibration"),
     ("RowOrigin", "calibration"),
     ("Adjustment", "calibration"),
+    ("EmpiricalPValue", "calibration"),
+    ("PValueBasis", "calibration"),
     ("ContributionOrder", "explain"),
     ("Contributions", "explain"),
     ("Whitener", "whitening"),
     ("WhiteningKind", "whitening"),
     ("DistanceModel", "model"),
     ("RowScore", "model"),
+    ("ObservedContributions", "model"),
+    ("ObservedRowScore", "model"),
+    ("ObservedScores", "model"),
     ("Scores", "model"),
     ("Scorer", "scorer"),
 ];

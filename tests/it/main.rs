@@ -13,6 +13,8 @@ mod classification_properties;
 mod control_chart;
 mod demo;
 mod drift;
+mod held_out;
+mod incomplete;
 mod layers;
 mod mean_tests;
 mod model_files;

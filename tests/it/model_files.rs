@@ -60,10 +60,10 @@ fn damaged_files_give_typed_errors() {
     let unchecked = unchecked.replace("},\n}", "}\n}");
     assert_eq!(ModelFile::from_json(&unchecked).unwrap(), file);
     // Newer format versions are refused in both forms.
-    let future = json.replace("\"format_version\": 1", "\"format_version\": 2");
+    let future = json.replace("\"format_version\": 2", "\"format_version\": 3");
     assert!(reason(ModelFile::from_json(&future)).contains("newer than this build reads"));
     let mut bytes = file.to_bytes();
-    bytes[4] = 2;
+    bytes[4] = 3;
     assert!(reason(ModelFile::from_bytes(&bytes)).contains("newer than this build reads"));
     // Truncation.
     let bytes = file.to_bytes();

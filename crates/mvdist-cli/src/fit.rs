@@ -1,11 +1,14 @@
 //! `mvdist fit`: estimate location and scatter and write a model file.
 
-use crate::table::{read_table, ColumnChoice};
+use crate::table::{read_table, read_table_with_gaps, ColumnChoice};
 use crate::CliError;
+use mvdist::held_out::{fit_holding_out, CalibrationCheck, HoldOutOptions};
+use mvdist::incomplete::EmOptions;
 use mvdist::model_file::ModelFile;
+use mvdist::ndarray::ArrayView2;
 use mvdist::robust::McdOptions;
 use mvdist::shrinkage::OasFormula;
-use mvdist::{DistanceModel, Divisor, Error};
+use mvdist::{DistanceModel, Divisor, Error, FitMethod};
 use std::path::{Path, PathBuf};
 
 #[derive(Clone, Copy, Debug, clap::ValueEnum)]
@@ -18,6 +21,9 @@ pub enum EstimatorChoice {
     Oas,
     /// Reweighted minimum covariance determinant (FastMCD): robust to outlying rows.
     Mcd,
+    /// Maximum likelihood from rows with empty cells (EM algorithm): the only
+    /// estimator that reads empty cells as missing rather than stopping.
+    Em,
 }
 
 #[derive(clap::Args)]
@@ -45,6 +51,19 @@ pub struct FitArgs {
     /// Write the compact binary model file instead of JSON.
     #[arg(long)]
     pub binary: bool,
+    /// Hold out this fraction of the rows (chosen at random) as calibration
+    /// rows: the model is fitted on the others and keeps their squared
+    /// distances, for distribution-free p-values (`score --p-values held-out`)
+    /// and a check of the F cutoffs, printed here.
+    #[arg(long, value_name = "FRACTION")]
+    pub hold_out: Option<f64>,
+    /// With --hold-out: seed of the random split (default 0).
+    #[arg(long, value_name = "N", requires = "hold_out")]
+    pub hold_out_seed: Option<u64>,
+    /// With --hold-out: write the Q–Q chart of the held-out rows against the
+    /// F law to this SVG file.
+    #[arg(long, value_name = "FILE", requires = "hold_out")]
+    pub calibration_chart: Option<PathBuf>,
 }
 
 /// Turns a library error about fitting into a message naming columns.
@@ -92,7 +111,24 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
 }
 
 pub fn run(args: &FitArgs) -> Result<(), CliError> {
-    let table = read_table(&args.data, &args.columns, args.skip_incomplete)?;
+    let is_em = matches!(args.estimator, EstimatorChoice::Em);
+    if is_em && args.skip_incomplete {
+        return Err(CliError(
+            "--estimator em reads empty cells as missing; --skip-incomplete does not apply".into(),
+        ));
+    }
+    if is_em && args.hold_out.is_some() {
+        return Err(CliError(
+            "--hold-out needs complete rows (held-out p-values compare distances on every variable); \
+             fit with another --estimator on complete rows, or leave out --hold-out"
+                .into(),
+        ));
+    }
+    let table = if is_em {
+        read_table_with_gaps(&args.data, &args.columns)?
+    } else {
+        read_table(&args.data, &args.columns, args.skip_incomplete)?
+    };
     let p = table.names.len();
     let is_mcd = matches!(args.estimator, EstimatorChoice::Mcd);
     if !is_mcd && (args.support.is_some() || args.seed.is_some()) {
@@ -100,35 +136,90 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
             "--support and --seed apply to --estimator mcd only".into(),
         ));
     }
-    let rows = mvdist::data::rows_from_slice(&table.data, p)?;
-    let model = match args.estimator {
+    let mut settings = McdOptions::default().with_seed(args.seed.unwrap_or(0));
+    if let Some(f) = args.support {
+        if !(f > 0.0 && f <= 1.0) {
+            return Err(CliError(format!(
+                "--support {f}: the support fraction must be in (0, 1]"
+            )));
+        }
+        settings = settings.with_support_fraction(f);
+    }
+    let fit = |rows: ArrayView2<'_, f64>| match args.estimator {
         EstimatorChoice::Classical => DistanceModel::fit_with_divisor(rows, Divisor::Unbiased),
         EstimatorChoice::LedoitWolf => DistanceModel::fit_ledoit_wolf(rows),
         EstimatorChoice::Oas => DistanceModel::fit_oas(rows, OasFormula::Published),
-        EstimatorChoice::Mcd => {
-            let mut settings = McdOptions::default().with_seed(args.seed.unwrap_or(0));
-            if let Some(f) = args.support {
-                if !(f > 0.0 && f <= 1.0) {
-                    return Err(CliError(format!(
-                        "--support {f}: the support fraction must be in (0, 1]"
-                    )));
-                }
-                settings = settings.with_support_fraction(f);
+        EstimatorChoice::Mcd => DistanceModel::fit_mcd(rows, &settings),
+        EstimatorChoice::Em => DistanceModel::fit_incomplete(rows, &EmOptions::default()),
+    };
+    let rows = mvdist::data::rows_from_slice(&table.data, p)?;
+    let model = match args.hold_out {
+        None => fit(rows),
+        Some(fraction) => {
+            if !(fraction > 0.0 && fraction < 1.0) {
+                return Err(CliError(format!(
+                    "--hold-out {fraction}: the fraction must be in (0, 1); a fifth to a third is usual"
+                )));
             }
-            DistanceModel::fit_mcd(rows, &settings)
+            let split = HoldOutOptions::default()
+                .with_fraction(fraction)
+                .with_seed(args.hold_out_seed.unwrap_or(0));
+            fit_holding_out(rows, &split, fit)
         }
     }
     .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?;
+    let check = match model.calibration() {
+        Some(_) => Some(CalibrationCheck::of_model(&model)?),
+        None => None,
+    };
+    let fitted = model.sample_size();
+    let method = model.fit_method().clone();
     let file = ModelFile::new(table.names.clone(), model)?;
     crate::output::save_model_file(&file, &args.out, args.binary)?;
+    if let (Some(check), Some(path)) = (&check, &args.calibration_chart) {
+        let title = format!("Held-out rows of {}", args.data.display());
+        crate::output::write_atomically(path, &check.to_svg(&title))?;
+    }
     println!(
         "fitted a {} model on {} rows × {} variables ({}); wrote {}",
         clap::ValueEnum::to_possible_value(&args.estimator)
             .map_or_else(String::new, |v| v.get_name().to_string()),
-        table.rows,
+        fitted,
         p,
         table.names.join(", "),
         args.out.display()
     );
+    if let FitMethod::ExpectationMaximization {
+        iterations,
+        converged,
+        missing_cells,
+    } = method
+    {
+        println!(
+            "EM: {missing_cells} empty cell(s) of {}; {iterations} iteration(s), {}",
+            table.rows * p,
+            if converged {
+                "converged"
+            } else {
+                "NOT converged (the estimate may be inaccurate)"
+            }
+        );
+    }
+    if let Some(check) = check {
+        println!(
+            "held out {} rows as calibration rows (kept in the model file)",
+            check.held_out_rows
+        );
+        for level in check.levels() {
+            println!("calibration: {}", level.reading);
+        }
+        if let Some(path) = &args.calibration_chart {
+            println!(
+                "wrote the Q–Q chart of the held-out rows to {}",
+                path.display()
+            );
+        }
+        println!("note: the check is about these data; thresholds assume the model fits the data, and a flag is evidence, not a verdict.");
+    }
     Ok(())
 }

@@ -22,6 +22,14 @@ pub struct NormalityArgs {
     /// Significance level for the readings.
     #[arg(long, default_value_t = 0.05)]
     pub alpha: f64,
+    /// Also check the F cutoffs on held-out rows: fit on the rows without
+    /// this fraction (a seeded random split) and count how many held-out rows
+    /// exceed the cutoffs at 5%, 1% and 0.1%.
+    #[arg(long, value_name = "FRACTION")]
+    pub hold_out: Option<f64>,
+    /// With --hold-out: write the Q–Q chart of the held-out rows to this SVG file.
+    #[arg(long, value_name = "FILE", requires = "hold_out")]
+    pub calibration_chart: Option<PathBuf>,
 }
 
 pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
@@ -32,7 +40,10 @@ pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
             args.alpha
         )));
     }
-    let options = NormalityOptions::default().with_alpha(args.alpha);
+    let mut options = NormalityOptions::default().with_alpha(args.alpha);
+    if let Some(f) = args.hold_out {
+        options = options.with_calibration_check(f);
+    }
     let rows = mvdist::data::rows_from_slice(&table.data, table.names.len())?;
     let report = NormalityReport::compute(rows, &options)
         .map_err(|e| explain_fit_error(&args.data, &table.names, table.rows, e))?
@@ -43,6 +54,24 @@ pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
         println!("{json}");
     } else {
         print!("{}", render(&report, &table.names, &args.data));
+        if let Some(check) = &report.calibration {
+            println!();
+            println!(
+                "F cutoffs on {} held-out rows (model fitted on the others):",
+                check.held_out_rows
+            );
+            for level in check.levels() {
+                println!("  {}", level.reading);
+            }
+        }
+    }
+    if let (Some(check), Some(path)) = (&report.calibration, &args.calibration_chart) {
+        let title = format!("Held-out rows of {}", args.data.display());
+        crate::output::write_atomically(path, &check.to_svg(&title))?;
+        eprintln!(
+            "mvdist: wrote the Q–Q chart of the held-out rows to {}",
+            path.display()
+        );
     }
     Ok(())
 }

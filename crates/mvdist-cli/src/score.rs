@@ -5,7 +5,7 @@ use crate::output::{csv_field, load_model_file, number_field, PendingFile};
 use crate::table::{layout_for, missing_value_error, open, parse_record, read_error, RowOutcome};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
-use mvdist::{ContributionOrder, Reference, RowOrigin};
+use mvdist::{ContributionOrder, EmpiricalPValue, Reference, RowOrigin};
 use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 
@@ -43,8 +43,33 @@ pub struct ScoreArgs {
     pub label: Option<String>,
     /// Write rows with a missing value as unscored (status "incomplete")
     /// instead of stopping.
-    #[arg(long)]
+    #[arg(long, conflicts_with = "observed_only")]
     pub skip_incomplete: bool,
+    /// Score rows with missing values on their observed variables (the
+    /// model's marginal on them, with a law of as many variables); the output
+    /// gets a column "observed" with the number of variables each row had.
+    #[arg(long)]
+    pub observed_only: bool,
+    /// Where p-values come from: the model's reference law (assumes
+    /// multivariate normal rows), or the calibration rows held out at fit
+    /// time (`fit --hold-out`; distribution-free for rows exchangeable with
+    /// them), optionally with the calibration-conditional adjustment.
+    #[arg(long, value_enum, default_value = "law")]
+    pub p_values: PValueChoice,
+    /// With --p-values held-out-conditional: the chance that the calibration
+    /// rows are unlucky (the guarantee holds except with this probability).
+    #[arg(long, default_value_t = 0.05, value_name = "DELTA")]
+    pub delta: f64,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
+pub enum PValueChoice {
+    /// The reference law (F for new rows, Beta for in-sample rows).
+    Law,
+    /// Conformal p-values from the held-out calibration rows.
+    HeldOut,
+    /// Held-out p-values valid given the calibration rows, except with probability --delta.
+    HeldOutConditional,
 }
 
 /// One pass over the data, calling `each` for every row with its line,
@@ -74,6 +99,7 @@ fn for_each_row(
         let label = layout.label.and_then(|l| record.get(l));
         match parse_record(&args.data, &record, &layout, &mut values)? {
             RowOutcome::Complete => each(line, label, Some(&values))?,
+            RowOutcome::Missing(_) if args.observed_only => each(line, label, Some(&values))?,
             RowOutcome::Missing(k) => {
                 if !args.skip_incomplete {
                     return Err(missing_value_error(&args.data, line, &layout.names[k]));
@@ -119,11 +145,64 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     let reference: Reference = model
         .reference(origin)
         .map_err(|e| CliError(format!("{}: {e}", args.model.display())))?;
-    let score = |line: u64, x: &[f64]| -> Result<(f64, f64), CliError> {
-        let d2 = model
-            .squared_distance(x)
-            .map_err(|e| CliError(format!("{}, line {line}: {e}", args.data.display())))?;
-        Ok((d2, reference.p_value(d2)))
+    let empirical = match args.p_values {
+        PValueChoice::Law => None,
+        PValueChoice::HeldOut => Some(EmpiricalPValue::Marginal),
+        PValueChoice::HeldOutConditional => {
+            Some(EmpiricalPValue::CalibrationConditional { delta: args.delta })
+        }
+    };
+    let calibration = match empirical {
+        None => None,
+        Some(kind) => {
+            kind.check()
+                .map_err(|e| CliError(format!("--delta: {e}")))?;
+            if args.in_sample {
+                return Err(CliError(
+                    "--in-sample and held-out p-values do not mix: held-out p-values are for \
+                     new rows"
+                        .into(),
+                ));
+            }
+            let c = model.calibration().ok_or_else(|| {
+                CliError(format!(
+                    "{}: the model carries no held-out calibration rows; refit with \
+                     `mvdist fit --hold-out 0.25`, or use --p-values law",
+                    args.model.display()
+                ))
+            })?;
+            if args.alpha < c.smallest_p_value_of(kind) {
+                eprintln!(
+                    "mvdist: warning: {} calibration rows give p-values of at least {:.4}, above \
+                     --alpha {}; no row can be flagged (hold out more rows)",
+                    c.len(),
+                    c.smallest_p_value_of(kind),
+                    args.alpha
+                );
+            }
+            Some((c, kind))
+        }
+    };
+    // (squared distance, p-value, observed variables) of one row.
+    let score = |line: u64, x: &[f64]| -> Result<(f64, f64, usize), CliError> {
+        let at = |e: mvdist::Error| CliError(format!("{}, line {line}: {e}", args.data.display()));
+        if x.iter().any(|v| v.is_nan()) {
+            if calibration.is_some() {
+                return Err(CliError(format!(
+                    "{}, line {line}: held-out p-values need complete rows (the calibration \
+                     distances use every variable); use --p-values law with --observed-only",
+                    args.data.display()
+                )));
+            }
+            let s = model.score_row_observed(x, origin, 0.5).map_err(at)?;
+            return Ok((s.squared_distance, s.p_value, s.observed));
+        }
+        let d2 = model.squared_distance(x).map_err(at)?;
+        let p = match &calibration {
+            Some((c, kind)) => c.p_value_of(d2, *kind),
+            None => reference.p_value(d2),
+        };
+        Ok((d2, p, x.len()))
     };
 
     // First pass, only with an adjustment: the number of scored rows and the
@@ -136,7 +215,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         let mut small = Vec::new();
         for_each_row(args, &file, |line, _, x| {
             if let Some(x) = x {
-                let (_, p) = score(line, x)?;
+                let (_, p, _) = score(line, x)?;
                 m += 1;
                 if p <= args.alpha {
                     small.push(p);
@@ -176,6 +255,16 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         ]
         .map(String::from),
     );
+    if args.observed_only {
+        header.push("observed".into());
+    }
+    let observed_field = |k: usize| {
+        if args.observed_only {
+            format!(",{k}")
+        } else {
+            String::new()
+        }
+    };
     let w = out.writer();
     let io = |e: std::io::Error| CliError(format!("{}: {e}", args.out.display()));
     writeln!(w, "{}", header.join(",")).map_err(io)?;
@@ -191,26 +280,48 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         };
         match x {
             Some(x) => {
-                let (d2, p) = score(line, x)?;
+                let (d2, p, k) = score(line, x)?;
                 let flag = p <= threshold;
                 flagged += u64::from(flag);
-                let why = model
-                    .explain(x, ContributionOrder::LargestFirst)
-                    .map_err(|e| CliError(format!("{}, line {line}: {e}", args.data.display())))?;
-                let top = why.top_variable();
-                let share = if d2 > 0.0 { why.terms()[top] / d2 } else { 0.0 };
+                let at = |e: mvdist::Error| {
+                    CliError(format!("{}, line {line}: {e}", args.data.display()))
+                };
+                let (top, share) = if k < x.len() {
+                    let why = model
+                        .explain_observed(x, ContributionOrder::LargestFirst)
+                        .map_err(at)?;
+                    let top = why.top_variable();
+                    let term = why
+                        .in_order()
+                        .into_iter()
+                        .find(|&(j, _)| j == top)
+                        .map_or(0.0, |(_, t)| t);
+                    (top, if d2 > 0.0 { term / d2 } else { 0.0 })
+                } else {
+                    let why = model
+                        .explain(x, ContributionOrder::LargestFirst)
+                        .map_err(at)?;
+                    let top = why.top_variable();
+                    (top, if d2 > 0.0 { why.terms()[top] / d2 } else { 0.0 })
+                };
                 writeln!(
                     out.writer(),
-                    "{row}{label_field},{},{},{flag},{},{share:.4},ok",
+                    "{row}{label_field},{},{},{flag},{},{share:.4},ok{}",
                     number_field(d2),
                     number_field(p),
-                    csv_field(&file.variables()[top])
+                    csv_field(&file.variables()[top]),
+                    observed_field(k)
                 )
                 .map_err(io)?;
             }
             None => {
                 incomplete += 1;
-                writeln!(out.writer(), "{row}{label_field},,,,,,incomplete").map_err(io)?;
+                writeln!(
+                    out.writer(),
+                    "{row}{label_field},,,,,,incomplete{}",
+                    observed_field(0)
+                )
+                .map_err(io)?;
             }
         }
         Ok(())
@@ -219,15 +330,28 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     if incomplete > 0 {
         eprintln!("mvdist: skipped {incomplete} incomplete row(s); they are in the output with status \"incomplete\"");
     }
+    let basis = match &calibration {
+        None => format!("{} reference", reference.kind().name()),
+        Some((c, EmpiricalPValue::Marginal)) => format!("held-out p-values from {} rows", c.len()),
+        Some((c, _)) => format!(
+            "calibration-conditional held-out p-values from {} rows, delta {}",
+            c.len(),
+            args.delta
+        ),
+    };
     println!(
-        "scored {} rows against {} ({} reference, alpha {}, adjustment {}): {flagged} flagged; wrote {}",
+        "scored {} rows against {} ({basis}, alpha {}, adjustment {}): {flagged} flagged; wrote {}",
         row - incomplete,
         args.model.display(),
-        reference.kind().name(),
         args.alpha,
-        clap::ValueEnum::to_possible_value(&args.adjust).map_or_else(String::new, |v| v.get_name().to_string()),
+        clap::ValueEnum::to_possible_value(&args.adjust)
+            .map_or_else(String::new, |v| v.get_name().to_string()),
         args.out.display()
     );
-    println!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
+    if calibration.is_some() {
+        println!("note: held-out p-values assume the scored rows are exchangeable with the calibration rows (same population and process state); a flag is evidence for a closer look, not a verdict.");
+    } else {
+        println!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
+    }
     Ok(())
 }

@@ -237,7 +237,14 @@ pub fn read_table(
 ) -> Result<Table, CliError> {
     let (reader, headers) = open(path)?;
     let layout = layout(path, &headers, choice)?;
-    read_rows(path, reader, layout, skip_incomplete)
+    read_rows(path, reader, layout, skip_incomplete, false)
+}
+
+/// As [`read_table`], keeping rows with missing values (as NaN cells).
+pub fn read_table_with_gaps(path: &Path, choice: &ColumnChoice) -> Result<Table, CliError> {
+    let (reader, headers) = open(path)?;
+    let layout = layout(path, &headers, choice)?;
+    read_rows(path, reader, layout, false, true)
 }
 
 /// As [`read_table`], for given variable names (another file's), found by
@@ -250,7 +257,7 @@ pub fn read_table_named(
 ) -> Result<Table, CliError> {
     let (reader, headers) = open(path)?;
     let layout = layout_for(path, &headers, names, label)?;
-    read_rows(path, reader, layout, skip_incomplete)
+    read_rows(path, reader, layout, skip_incomplete, false)
 }
 
 fn read_rows(
@@ -258,6 +265,7 @@ fn read_rows(
     mut reader: csv::Reader<File>,
     layout: Layout,
     skip_incomplete: bool,
+    keep_gaps: bool,
 ) -> Result<Table, CliError> {
     let mut data = Vec::new();
     let mut labels = Vec::new();
@@ -272,6 +280,13 @@ fn read_rows(
         let line = record.position().map_or(0, |p| p.line());
         match parse_record(path, &record, &layout, &mut values)? {
             RowOutcome::Complete => {
+                data.extend_from_slice(&values);
+                if let Some(l) = layout.label {
+                    labels.push(record.get(l).unwrap_or("").to_string());
+                }
+                rows += 1;
+            }
+            RowOutcome::Missing(_) if keep_gaps => {
                 data.extend_from_slice(&values);
                 if let Some(l) = layout.label {
                     labels.push(record.get(l).unwrap_or("").to_string());

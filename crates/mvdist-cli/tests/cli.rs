@@ -62,7 +62,7 @@ fn fit_then_score_round_trip_matches_the_library() {
     let dir = TempDir::new().unwrap();
     let (data, model) = fit_iris(&dir);
     let text = std::fs::read_to_string(&model).unwrap();
-    assert!(text.contains("\"format_version\": 1"));
+    assert!(text.contains("\"format_version\": 2"));
     assert!(text.contains("\"variables\""));
     let out = dir.path().join("scores.csv");
     mvdist()
@@ -316,7 +316,7 @@ fn score_errors_name_the_problem() {
     let future = write(
         dir.path(),
         "future.json",
-        &text.replace("\"format_version\": 1", "\"format_version\": 99"),
+        &text.replace("\"format_version\": 2", "\"format_version\": 99"),
     );
     score(
         &future,
@@ -1300,4 +1300,203 @@ fn robust_fit_and_in_sample_scores_on_stack_loss() {
         .map(|(i, _)| i + 1)
         .collect();
     assert_eq!(flagged, [1, 2, 3]);
+}
+
+/// `fit --hold-out` keeps calibration rows in the model file, prints the
+/// check and writes its chart; `score --p-values held-out` agrees with the
+/// library's held-out p-values.
+#[test]
+fn held_out_calibration_rows_round_trip() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    let model = dir.path().join("m.json");
+    let chart = dir.path().join("qq.svg");
+    mvdist()
+        .arg("fit")
+        .arg(&data)
+        .arg("--out")
+        .arg(&model)
+        .args([
+            "--label",
+            "flower",
+            "--hold-out",
+            "0.3",
+            "--hold-out-seed",
+            "5",
+        ])
+        .arg("--calibration-chart")
+        .arg(&chart)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("105 rows × 4 variables"))
+        .stdout(predicate::str::contains("held out 45 rows"))
+        .stdout(predicate::str::contains(
+            "calibration: the F cutoff at 5.0%",
+        ));
+    assert!(std::fs::read_to_string(&chart).unwrap().contains("<circle"));
+    let file = mvdist::model_file::ModelFile::load(&model).unwrap();
+    assert_eq!(file.model().calibration().unwrap().len(), 45);
+    let out = dir.path().join("s.csv");
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .arg("--out")
+        .arg(&out)
+        .args([
+            "--label",
+            "flower",
+            "--p-values",
+            "held-out",
+            "--alpha",
+            "0.05",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("held-out p-values from 45 rows"));
+    let rows = read_scores(&out);
+    let f = common::fixture("iris_covariance.json");
+    let x = common::matrix(&f["data"]);
+    let want = file
+        .model()
+        .score_held_out(x.view(), mvdist::EmpiricalPValue::Marginal)
+        .unwrap();
+    for (i, r) in rows.iter().enumerate() {
+        let p: f64 = r[3].parse().unwrap();
+        assert_eq!(p, want.p_values()[i], "row {i}");
+    }
+    // The conditional variant, and its refusals.
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .arg("--out")
+        .arg(&out)
+        .args([
+            "--label",
+            "flower",
+            "--p-values",
+            "held-out-conditional",
+            "--delta",
+            "0.1",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("calibration-conditional"));
+    let out2 = dir.path().join("s2.csv");
+    for (extra, message) in [
+        (
+            &["--p-values", "held-out-conditional", "--delta", "0.8"][..],
+            "--delta",
+        ),
+        (&["--p-values", "held-out", "--in-sample"][..], "do not mix"),
+    ] {
+        let mut args: Vec<&std::ffi::OsStr> = vec![
+            "score".as_ref(),
+            model.as_os_str(),
+            data.as_os_str(),
+            "--out".as_ref(),
+            out2.as_os_str(),
+            "--label".as_ref(),
+            "flower".as_ref(),
+        ];
+        args.extend(extra.iter().map(std::ffi::OsStr::new));
+        fails(&args, &out2, message);
+    }
+    // A model without calibration rows says how to get them.
+    let (_, plain) = fit_iris(&dir);
+    let args: Vec<&std::ffi::OsStr> = vec![
+        "score".as_ref(),
+        plain.as_os_str(),
+        data.as_os_str(),
+        "--out".as_ref(),
+        out2.as_os_str(),
+        "--label".as_ref(),
+        "flower".as_ref(),
+        "--p-values".as_ref(),
+        "held-out".as_ref(),
+    ];
+    fails(&args, &out2, "fit --hold-out");
+}
+
+/// Rows with gaps: `fit --estimator em` reads them, `score --observed-only`
+/// scores them on their observed variables, as the library does.
+#[test]
+fn rows_with_gaps_fit_by_em_and_score_on_observed_variables() {
+    let dir = TempDir::new().unwrap();
+    let data = write(
+        dir.path(),
+        "gaps.csv",
+        "a,b,c\n1,2,0.5\n2,,0.9\n3,4.2,\n4,4.8,1.6\n5,6.1,1.9\n2.5,3,0.7\n3.5,,1.2\n1.5,2.2,0.6\n4.5,5.6,1.5\n0.5,1.4,0.1\n",
+    );
+    let model = dir.path().join("em.json");
+    mvdist()
+        .arg("fit")
+        .arg(&data)
+        .arg("--out")
+        .arg(&model)
+        .args(["--estimator", "em"])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("EM: 3 empty cell(s) of 30"))
+        .stdout(predicate::str::contains("converged"));
+    let out = dir.path().join("s.csv");
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .arg("--out")
+        .arg(&out)
+        .arg("--observed-only")
+        .assert()
+        .success();
+    let rows = read_scores(&out);
+    assert_eq!(rows[1][7], "2");
+    assert_eq!(rows[0][7], "3");
+    let file = mvdist::model_file::ModelFile::load(&model).unwrap();
+    let want = file
+        .model()
+        .score_row_observed(&[2.0, f64::NAN, 0.9], RowOrigin::New, 0.01)
+        .unwrap();
+    assert_eq!(rows[1][1].parse::<f64>().unwrap(), want.squared_distance);
+    assert_eq!(rows[1][2].parse::<f64>().unwrap(), want.p_value);
+    // Held-out rows and EM do not mix; EM needs more observed values.
+    fit_fails(
+        &dir,
+        Some("a,b\n1,2\n2,\n3,1\n4,3\n"),
+        &["--estimator", "em", "--hold-out", "0.3"],
+        "--hold-out needs complete rows",
+    );
+    fit_fails(
+        &dir,
+        Some("a,b\n1,2\n2,\n3,\n4,\n5,1\n"),
+        &["--estimator", "em"],
+        "column 1 is observed in only 2 rows",
+    );
+}
+
+#[test]
+fn normality_report_checks_the_f_cutoffs_on_held_out_rows() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    let chart = dir.path().join("n.svg");
+    mvdist()
+        .arg("normality")
+        .arg(&data)
+        .args(["--label", "flower", "--hold-out", "0.5"])
+        .arg("--calibration-chart")
+        .arg(&chart)
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("F cutoffs on 75 held-out rows"));
+    assert!(chart.exists());
+    let json = json_of(mvdist().arg("normality").arg(&data).args([
+        "--label",
+        "flower",
+        "--hold-out",
+        "0.5",
+        "--json",
+    ]));
+    assert_eq!(json["calibration"]["held_out_rows"], 75);
+    assert_eq!(json["calibration"]["levels"].as_array().unwrap().len(), 3);
 }

@@ -1,6 +1,9 @@
 //! The fitted distance model: location, scatter, sample size and origin.
 
-use crate::calibration::{adjusted_p_values, check_probability, Adjustment, Reference, RowOrigin};
+use crate::calibration::{
+    adjusted_p_values, check_probability, Adjustment, EmpiricalReference, PValueBasis, Reference,
+    RowOrigin,
+};
 use crate::data::{check_row, check_row_finite, Rows};
 use crate::error::{Error, Result};
 use crate::estimate::{Estimate, FitMethod, McdStage, OasFormula, ShrinkageTarget};
@@ -14,6 +17,11 @@ use crate::whitening::{Whitener, WhiteningKind};
 use ndarray::ArrayView2;
 use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
+
+mod held_out;
+mod observed;
+
+pub use observed::{ObservedContributions, ObservedRowScore, ObservedScores};
 
 /// A fitted model for squared generalized distances: a location `μ`, a
 /// validated [`Scatter`] `Σ`, and the number `n` of rows it was fitted on.
@@ -79,6 +87,7 @@ pub struct DistanceModel {
     scatter: Scatter,
     sample_size: usize,
     estimator: FitMethod,
+    calibration: Option<EmpiricalReference>,
 }
 
 #[derive(Serialize, Deserialize)]
@@ -87,12 +96,18 @@ struct ModelData {
     location: Vec<f64>,
     scatter: Scatter,
     estimator: FitMethod,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    calibration: Option<EmpiricalReference>,
 }
 
 impl TryFrom<ModelData> for DistanceModel {
     type Error = Error;
     fn try_from(d: ModelData) -> Result<Self> {
-        DistanceModel::from_parts(d.location, d.scatter, d.n, d.estimator)
+        let model = DistanceModel::from_parts(d.location, d.scatter, d.n, d.estimator)?;
+        Ok(match d.calibration {
+            Some(c) => model.with_calibration(c),
+            None => model,
+        })
     }
 }
 
@@ -103,6 +118,7 @@ impl From<DistanceModel> for ModelData {
             location: m.location,
             scatter: m.scatter,
             estimator: m.estimator,
+            calibration: m.calibration,
         }
     }
 }
@@ -113,7 +129,7 @@ impl From<DistanceModel> for ModelData {
 pub struct Scores {
     squared_distances: Vec<f64>,
     p_values: Vec<f64>,
-    reference: Reference,
+    basis: PValueBasis,
 }
 
 /// The serialized form of [`Scores`], checked on the way in: one p-value
@@ -122,7 +138,7 @@ pub struct Scores {
 struct ScoresData {
     squared_distances: Vec<f64>,
     p_values: Vec<f64>,
-    reference: Reference,
+    basis: PValueBasis,
 }
 
 impl TryFrom<ScoresData> for Scores {
@@ -140,7 +156,7 @@ impl TryFrom<ScoresData> for Scores {
         Ok(Scores {
             squared_distances: d.squared_distances,
             p_values: d.p_values,
-            reference: d.reference,
+            basis: d.basis,
         })
     }
 }
@@ -151,14 +167,20 @@ impl Scores {
         &self.squared_distances
     }
 
-    /// The p-value of each row under [`reference`](Self::reference).
+    /// The p-value of each row, from [`basis`](Self::basis).
     pub fn p_values(&self) -> &[f64] {
         &self.p_values
     }
 
-    /// The reference distribution used.
-    pub fn reference(&self) -> Reference {
-        self.reference
+    /// Where the p-values come from: a reference law or held-out rows.
+    pub fn basis(&self) -> PValueBasis {
+        self.basis
+    }
+
+    /// The reference law used, for p-values from a law (`None` for
+    /// p-values from held-out rows).
+    pub fn reference(&self) -> Option<Reference> {
+        self.basis.reference()
     }
 
     /// p-values adjusted for multiple testing.
@@ -412,6 +434,7 @@ impl DistanceModel {
             scatter,
             sample_size,
             estimator,
+            calibration: None,
         })
     }
 
@@ -610,8 +633,15 @@ impl DistanceModel {
     /// [`Error::InvalidParameter`] for new or in-sample rows of a weighted
     /// fit with the divisor `n`.
     pub fn reference(&self, origin: RowOrigin) -> Result<Reference> {
+        self.reference_in(origin, self.dim())
+    }
+
+    /// The reference of [`reference`](Self::reference) for a squared
+    /// distance on `dim` of the variables (the marginal of the model on
+    /// them): used for rows with empty cells.
+    pub(crate) fn reference_in(&self, origin: RowOrigin, dim: usize) -> Result<Reference> {
         match (&self.estimator, origin) {
-            (_, RowOrigin::KnownParameters) => Reference::chi_square(self.dim()),
+            (_, RowOrigin::KnownParameters) => Reference::chi_square(dim),
             (
                 FitMethod::Mcd {
                     stage: McdStage::Reweighted,
@@ -620,8 +650,8 @@ impl DistanceModel {
                 },
                 _,
             ) => match *wishart_dof {
-                Some(m) => Reference::reweighted_mcd(self.dim(), m),
-                None => Reference::chi_square(self.dim()),
+                Some(m) => Reference::reweighted_mcd(dim, m),
+                None => Reference::chi_square(dim),
             },
             (
                 FitMethod::Mcd {
@@ -630,7 +660,7 @@ impl DistanceModel {
                     ..
                 },
                 _,
-            ) => Reference::raw_mcd(self.sample_size, self.dim(), *subset_size),
+            ) => Reference::raw_mcd(self.sample_size, dim, *subset_size),
             (
                 FitMethod::Weighted {
                     divisor: Divisor::MaximumLikelihood,
@@ -642,7 +672,7 @@ impl DistanceModel {
                  reference (its scale depends on the weights); refit with \
                  Divisor::Unbiased, or score with RowOrigin::KnownParameters",
             )),
-            (estimator, _) => Ok(Reference::for_origin(origin, self.sample_size, self.dim())?
+            (estimator, _) => Ok(Reference::for_origin(origin, self.sample_size, dim)?
                 .with_divisor(reference_divisor(estimator))),
         }
     }
@@ -669,7 +699,7 @@ impl DistanceModel {
         Ok(Scores {
             squared_distances,
             p_values,
-            reference,
+            basis: PValueBasis::Law(reference),
         })
     }
 
@@ -772,9 +802,10 @@ pub(crate) fn p_values_into(reference: &Reference, d2: &[f64], p_values: &mut [f
 fn reference_divisor(estimator: &FitMethod) -> Divisor {
     match estimator {
         FitMethod::Classical { divisor } | FitMethod::Weighted { divisor } => *divisor,
-        FitMethod::LedoitWolf { .. } | FitMethod::Oas { .. } | FitMethod::Shrunk { .. } => {
-            Divisor::MaximumLikelihood
-        }
+        FitMethod::LedoitWolf { .. }
+        | FitMethod::Oas { .. }
+        | FitMethod::Shrunk { .. }
+        | FitMethod::ExpectationMaximization { .. } => Divisor::MaximumLikelihood,
         _ => Divisor::Unbiased,
     }
 }
@@ -807,6 +838,47 @@ impl McdFit {
     /// As [`DistanceModel::from_parts`] (not expected).
     pub fn raw_model(&self) -> Result<DistanceModel> {
         DistanceModel::from_estimate(self.raw_estimate())
+    }
+}
+
+impl crate::incomplete::EmFit {
+    /// A [`DistanceModel`] holding this estimate (F and Beta references of
+    /// a classical maximum-likelihood fit on its `n` rows: approximate when
+    /// cells were missing).
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected).
+    pub fn model(&self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.estimate())
+    }
+}
+
+impl DistanceModel {
+    /// Fits the maximum-likelihood mean and covariance from rows whose
+    /// empty cells are NaN, by the EM algorithm; see [`crate::incomplete`]
+    /// (which also reports the iterations and the log-likelihood trace).
+    /// The fit's iterations and convergence are in
+    /// [`fit_method`](Self::fit_method).
+    ///
+    /// # Errors
+    /// As [`crate::incomplete::expectation_maximization`].
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{incomplete::EmOptions, DistanceModel, FitMethod};
+    /// use ndarray::array;
+    /// let nan = f64::NAN;
+    /// let rows = array![[1.0, 2.1], [2.0, nan], [3.0, 4.2], [4.0, 4.8], [nan, 6.1], [2.5, 3.0]];
+    /// let model = DistanceModel::fit_incomplete(rows.view(), &EmOptions::default())?;
+    /// assert!(matches!(model.fit_method(), FitMethod::ExpectationMaximization { converged: true, .. }));
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_incomplete<'a>(
+        rows: impl Into<Rows<'a>>,
+        options: &crate::incomplete::EmOptions,
+    ) -> Result<Self> {
+        rows.into()
+            .with_f64(|rows| crate::incomplete::expectation_maximization(rows, options)?.model())
     }
 }
 
