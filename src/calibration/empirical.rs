@@ -116,10 +116,101 @@ impl EmpiricalPValue {
 /// assert!(held_out.cutoff(0.05, EmpiricalPValue::Marginal).is_err());
 /// # Ok::<(), mvdist::Error>(())
 /// ```
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, Serialize, Deserialize)]
 #[serde(try_from = "EmpiricalData", into = "EmpiricalData")]
 pub struct EmpiricalReference {
     sorted: Vec<f64>,
+    /// The lookup structure of `count_at_least`, derived from `sorted` and
+    /// not serialized.
+    lookup: Lookup,
+}
+
+impl PartialEq for EmpiricalReference {
+    fn eq(&self, other: &Self) -> bool {
+        self.sorted == other.sorted
+    }
+}
+
+/// A bucket index over the bit patterns of the positive values. For
+/// positive floats the bit pattern, read as an integer, increases with the
+/// value, so `key(d) = (bits(d) − bits(smallest)) >> shift` is exactly
+/// monotone; `index[k]` is the number of values whose key is below `k`.
+/// A lookup starts there and counts the few values of its bucket that
+/// are below it, without branches; `padded` is `sorted` followed by two
+/// `+∞` so the comparisons need no bounds checks.
+#[derive(Clone, Debug, Default)]
+struct Lookup {
+    index: Vec<u32>,
+    padded: Vec<f64>,
+    /// `bits` of the smallest positive value (the lowest key).
+    base: u64,
+    /// The smallest and largest positive values: outside them a lookup
+    /// bisects (zeros, values below every positive one, or above all).
+    smallest: f64,
+    largest: f64,
+    shift: u32,
+}
+
+/// Buckets per calibration value, at most (most buckets then hold zero or
+/// one value).
+const BUCKETS_PER_VALUE: usize = 8;
+
+impl Lookup {
+    fn new(sorted: &[f64]) -> Lookup {
+        let mut padded = Vec::with_capacity(sorted.len() + 2);
+        padded.extend_from_slice(sorted);
+        padded.extend([f64::INFINITY; 2]);
+        let first_positive = sorted.partition_point(|&c| c <= 0.0);
+        let Some(&smallest) = sorted.get(first_positive) else {
+            return Lookup {
+                padded,
+                smallest: f64::INFINITY,
+                largest: f64::NEG_INFINITY,
+                ..Lookup::default()
+            };
+        };
+        let largest = sorted[sorted.len() - 1];
+        let base = smallest.to_bits();
+        let range = largest.to_bits() - base;
+        let target = (BUCKETS_PER_VALUE * sorted.len()).clamp(64, 1 << 24) as u64;
+        let mut shift = 0u32;
+        while (range >> shift) >= target {
+            shift += 1;
+        }
+        let buckets = (range >> shift) as usize + 1;
+        let mut index = vec![0u32; buckets + 1];
+        let mut i = first_positive;
+        for (k, slot) in index.iter_mut().enumerate() {
+            while i < sorted.len() && (((sorted[i].to_bits() - base) >> shift) as usize) < k {
+                i += 1;
+            }
+            *slot = i as u32;
+        }
+        Lookup {
+            index,
+            padded,
+            base,
+            smallest,
+            largest,
+            shift,
+        }
+    }
+
+    /// The first position whose value is at least `d` (`d` finite, in
+    /// `[smallest, largest]`).
+    #[inline]
+    fn first_at_least(&self, d: f64) -> usize {
+        let k = ((d.to_bits() - self.base) >> self.shift) as usize;
+        let (lo, hi) = (self.index[k] as usize, self.index[k + 1] as usize);
+        if hi - lo > 2 {
+            // A crowded bucket: bisect it.
+            return lo + self.padded[lo..hi].partition_point(|&c| c < d);
+        }
+        // At most two values in the bucket; the values after it are above
+        // `d`, so both comparisons may look past its end (the two loads are
+        // independent, and there is no branch on the data).
+        lo + usize::from(self.padded[lo] < d) + usize::from(self.padded[lo + 1] < d)
+    }
 }
 
 #[derive(Serialize, Deserialize)]
@@ -172,8 +263,20 @@ impl EmpiricalReference {
             }
         }
         squared_distances.sort_by(f64::total_cmp);
+        if squared_distances.len() >= u32::MAX as usize {
+            return Err(Error::invalid(
+                "calibration rows",
+                format!(
+                    "{} values; at most {} are supported",
+                    squared_distances.len(),
+                    u32::MAX - 1
+                ),
+            ));
+        }
+        let lookup = Lookup::new(&squared_distances);
         Ok(EmpiricalReference {
             sorted: squared_distances,
+            lookup,
         })
     }
 
@@ -192,11 +295,19 @@ impl EmpiricalReference {
         &self.sorted
     }
 
-    /// `#{i : cᵢ ≥ d2}`, by binary search. A NaN `d2` counts no row.
+    /// `#{i : cᵢ ≥ d2}`. A NaN `d2` counts no row.
+    ///
+    /// A bucket index over the values' bit patterns (exactly monotone for
+    /// positive values) gives a start next to the answer, and comparisons
+    /// with the sorted values themselves give the exact count; a crowded
+    /// bucket is searched by bisection.
     pub fn count_at_least(&self, d2: f64) -> usize {
+        let m = self.sorted.len();
+        if d2 >= self.lookup.smallest && d2 <= self.lookup.largest {
+            return m - self.lookup.first_at_least(d2);
+        }
         // First index whose value is ≥ d2 (NaN: none is).
-        let first = self.sorted.partition_point(|&c| c < d2 || d2.is_nan());
-        self.sorted.len() - first
+        m - self.sorted.partition_point(|&c| c < d2 || d2.is_nan())
     }
 
     /// The marginal conformal p-value `(1 + #{cᵢ ≥ d2}) / (m + 1)`.
@@ -290,6 +401,34 @@ impl EmpiricalReference {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn bucket_lookup_equals_bisection() {
+        // Spread, tied and extreme values; every probe agrees with a plain
+        // count.
+        let mut values: Vec<f64> = (0..997)
+            .map(|i| ((i * 7919) % 1000) as f64 / 37.0)
+            .collect();
+        values.extend([0.0, 0.0, 1e-300, 5.0, 5.0, 5.0, 1e300, 3.0e10]);
+        values.extend(std::iter::repeat_n(2.5, 50));
+        let r = EmpiricalReference::from_squared_distances(values.clone()).unwrap();
+        let mut probes: Vec<f64> = values.clone();
+        probes.extend([
+            -1.0,
+            0.0,
+            1e-310,
+            2.5,
+            2.5000000000000004,
+            1e308,
+            f64::INFINITY,
+            f64::NAN,
+        ]);
+        probes.extend((0..5000).map(|i| i as f64 * 0.0071));
+        for d in probes {
+            let want = values.iter().filter(|&&c| c >= d).count();
+            assert_eq!(r.count_at_least(d), want, "{d}");
+        }
+    }
 
     #[test]
     fn counts_ties_and_extremes() {

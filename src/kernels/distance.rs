@@ -373,6 +373,45 @@ pub(crate) fn batch_squared_distances(
     first_non_finite(x, bad)
 }
 
+/// As [`batch_squared_distances`], then `then(block_of_out, block_of_second)`
+/// on each task's block while it is still in cache (for p-values computed
+/// from the distances without a second pass over memory). `second` has one
+/// value per row, like `out`.
+pub(crate) fn batch_squared_distances_then(
+    factor: Factor<'_>,
+    mu: &[f64],
+    x: ArrayView2<'_, f64>,
+    out: &mut [f64],
+    second: &mut [f64],
+    then: impl Fn(&[f64], &mut [f64]) + Sync,
+) -> Result<()> {
+    let (w, diagonal) = (factor.w, factor.diagonal);
+    let work = x.nrows() * mu.len();
+    let block =
+        |start: usize, chunk: &mut [f64], extra: &mut [f64], buf: &mut Vec<[f64; LANES]>| {
+            let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
+            block_dispatch(w, mu, diagonal, rows, chunk, buf);
+            then(chunk, extra);
+            chunk.iter().position(|v| !v.is_finite())
+        };
+    let bad = if work < SEQUENTIAL_BELOW {
+        block(0, out, second, &mut Vec::new())
+    } else {
+        let first = AtomicUsize::new(usize::MAX);
+        out.par_chunks_mut(TASK_ROWS)
+            .zip(second.par_chunks_mut(TASK_ROWS))
+            .enumerate()
+            .for_each_init(Vec::new, |buf, (t, (chunk, extra))| {
+                if let Some(i) = block(t * TASK_ROWS, chunk, extra, buf) {
+                    first.fetch_min(t * TASK_ROWS + i, Ordering::Relaxed);
+                }
+            });
+        let row = first.into_inner();
+        (row != usize::MAX).then_some(row)
+    };
+    first_non_finite(x, bad)
+}
+
 /// As [`batch_squared_distances`] for single-precision rows: each task
 /// widens its block of rows to `f64` (a buffer reused across blocks) and
 /// runs the same kernel, so results equal those of the widened matrix.

@@ -108,19 +108,32 @@ impl DistanceModel {
         kind.check()?;
         let rows = rows.into();
         check_output(p_values.len(), rows.nrows())?;
-        self.squared_distances_into(rows, squared_distances)?;
-        let each = |p: &mut [f64], d: &[f64]| {
+        let each = |d: &[f64], p: &mut [f64]| {
             for (pv, &dv) in p.iter_mut().zip(d) {
                 *pv = calibration.p_value_of(dv, kind);
             }
         };
-        if squared_distances.len() < 4096 {
-            each(p_values, squared_distances);
-        } else {
-            p_values
-                .par_chunks_mut(1024)
-                .zip(squared_distances.par_chunks(1024))
-                .for_each(|(p, d)| each(p, d));
+        match rows {
+            // One pass: each task looks up its block's p-values while the
+            // distances are in cache.
+            Rows::F64(x) if x.ncols() == self.dim() => {
+                check_output(squared_distances.len(), x.nrows())?;
+                crate::kernels::distance::batch_squared_distances_then(
+                    self.scatter.whitening_factor(),
+                    &self.location,
+                    x,
+                    squared_distances,
+                    p_values,
+                    each,
+                )?;
+            }
+            rows => {
+                self.squared_distances_into(rows, squared_distances)?;
+                p_values
+                    .par_chunks_mut(4096)
+                    .zip(squared_distances.par_chunks(4096))
+                    .for_each(|(p, d)| each(d, p));
+            }
         }
         Ok(PValueBasis::HeldOut {
             rows: calibration.len(),
