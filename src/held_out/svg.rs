@@ -102,15 +102,15 @@ pub(super) fn qq_svg(check: &CalibrationCheck, title: &str) -> String {
     }
     // The points.
     let stride = m.div_ceil(MOST_POINTS).max(1);
-    for i in 0..m {
+    for (i, (&t, &o)) in check.theoretical.iter().zip(&check.observed).enumerate() {
         if i % stride != 0 && i + 100 < m {
             continue;
         }
         let _ = writeln!(
             s,
             r##"<circle cx="{:.1}" cy="{:.1}" r="2.2" fill="#1f5fa8" fill-opacity="0.7"/>"##,
-            x(check.theoretical[i]),
-            y(check.observed[i])
+            x(t),
+            y(o)
         );
     }
     let _ = writeln!(

@@ -60,15 +60,51 @@ pub struct ObservedRowScore {
 
 /// Per-variable terms of a row with empty cells, on its observed variables.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(try_from = "ObservedContributionsData")]
 pub struct ObservedContributions {
-    /// The observed variables (model columns), in increasing order.
-    pub observed: Vec<usize>,
-    /// The terms over the observed variables; its indices are positions in
-    /// `observed`: use [`in_order`](Self::in_order) for model columns.
-    pub contributions: Contributions,
+    observed: Vec<usize>,
+    contributions: Contributions,
+}
+
+/// The serialized form, checked on the way in: one observed column per term.
+#[derive(Deserialize)]
+struct ObservedContributionsData {
+    observed: Vec<usize>,
+    contributions: Contributions,
+}
+
+impl TryFrom<ObservedContributionsData> for ObservedContributions {
+    type Error = Error;
+    fn try_from(d: ObservedContributionsData) -> Result<Self> {
+        if d.observed.len() != d.contributions.terms().len() {
+            return Err(Error::Format {
+                reason: format!(
+                    "{} observed columns but {} terms",
+                    d.observed.len(),
+                    d.contributions.terms().len()
+                ),
+            });
+        }
+        Ok(ObservedContributions {
+            observed: d.observed,
+            contributions: d.contributions,
+        })
+    }
 }
 
 impl ObservedContributions {
+    /// The observed variables (model columns), in increasing order.
+    pub fn observed(&self) -> &[usize] {
+        &self.observed
+    }
+
+    /// The terms over the observed variables; its indices are positions in
+    /// [`observed`](Self::observed): use [`in_order`](Self::in_order) for
+    /// model columns.
+    pub fn contributions(&self) -> &Contributions {
+        &self.contributions
+    }
+
     /// `(model column, term)` pairs in conditioning order.
     pub fn in_order(&self) -> Vec<(usize, f64)> {
         self.contributions

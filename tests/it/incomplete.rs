@@ -102,7 +102,7 @@ fn observed_distance_equals_the_fit_on_observed_columns_and_the_profile_minimum(
     let why = model
         .explain_observed(&x, ContributionOrder::LargestFirst)
         .unwrap();
-    assert_eq!(why.observed, vec![0, 2]);
+    assert_eq!(why.observed(), &[0, 2]);
     assert!(rel(why.total(), got.squared_distance) < 1e-12);
     assert!([0, 2].contains(&why.top_variable()));
 }

@@ -671,6 +671,43 @@ fn mutated_serialized_values_never_panic() {
     let probe: Vec<f64> = vec![1.0, 2.0, 0.5];
     let model = DistanceModel::fit(rows).unwrap();
     survives_mutations(&model, |m| exercise_model(m, rows, &probe));
+    // A model with held-out calibration rows, and rows with gaps.
+    let calibrated = DistanceModel::fit(rows)
+        .unwrap()
+        .with_calibration_rows(rows)
+        .unwrap();
+    survives_mutations(&calibrated, |m| {
+        exercise_model(m, rows, &probe);
+        for kind in [
+            mvdist::EmpiricalPValue::Marginal,
+            mvdist::EmpiricalPValue::CalibrationConditional { delta: 0.1 },
+        ] {
+            if let Ok(s) = m.score_held_out(rows, kind) {
+                assert!(s.p_values().iter().all(|p| (0.0..=1.0).contains(p)));
+            }
+            let _ = m.held_out_cutoff(0.2, kind);
+        }
+        let _ = mvdist::held_out::CalibrationCheck::of_model(m).map(|c| c.to_svg("t"));
+        let gaps = [probe[0], f64::NAN, probe[2]];
+        let _ = m.score_row_observed(&gaps[..m.dim().min(3)], RowOrigin::New, 0.05);
+        let _ = m.explain_observed(
+            &gaps[..m.dim().min(3)],
+            mvdist::ContributionOrder::LargestFirst,
+        );
+    });
+    if let Ok(check) = mvdist::held_out::CalibrationCheck::of_model(&calibrated) {
+        survives_mutations(&check, |c| {
+            let _ = (c.to_svg("t"), c.any_too_many());
+        });
+    }
+    if let Ok(why) = calibrated.explain_observed(
+        &[1.0, f64::NAN, 0.5],
+        mvdist::ContributionOrder::LargestFirst,
+    ) {
+        survives_mutations(&why, |w| {
+            let _ = (w.in_order(), w.top_variable(), w.total());
+        });
+    }
     survives_mutations(model.scatter(), |s| {
         let _ = s.squared_norm(&probe);
         let _ = s.condition_number();
