@@ -3,9 +3,13 @@
 use crate::convert::to_python;
 use crate::input::{check_names, table, Matrix};
 use crate::{check, error, invalid, threads};
+use mvdist::calibration::EmpiricalPValue;
 use mvdist::explain::ContributionOrder;
+use mvdist::held_out::{fit_holding_out, HoldOutOptions};
+use mvdist::incomplete::EmOptions;
 use mvdist::model_file::ModelFile;
 use mvdist::moments::Divisor;
+use mvdist::ndarray::ArrayView2;
 use mvdist::robust::McdStage;
 use mvdist::robust::{minimum_covariance_determinant, McdOptions};
 use mvdist::shrinkage::OasFormula;
@@ -219,7 +223,8 @@ impl PyDistanceModel {
     ///     'mcd'
     #[staticmethod]
     #[pyo3(signature = (rows, estimator="classical", *, divisor=None, oas_formula=None,
-        support_fraction=None, seed=None, starts=None, stage=None, variables=None, threads=None))]
+        support_fraction=None, seed=None, starts=None, stage=None, variables=None,
+        hold_out=None, hold_out_seed=0, threads=None))]
     #[allow(clippy::too_many_arguments)]
     fn fit(
         py: Python<'_>,
@@ -232,6 +237,8 @@ impl PyDistanceModel {
         starts: Option<usize>,
         stage: Option<String>,
         variables: Option<Vec<String>>,
+        hold_out: Option<f64>,
+        hold_out_seed: u64,
         threads: Option<usize>,
     ) -> PyResult<Self> {
         let t = table(rows, "rows")?;
@@ -261,44 +268,55 @@ impl PyDistanceModel {
         if estimator != "oas" && oas_formula.is_some() {
             return refuse("oas_formula");
         }
-        let x = t.matrix.rows();
-        let model = match estimator {
-            "classical" => {
-                let d = crate::model::divisor(divisor.unwrap_or("unbiased"))?;
-                threads::run(py, threads, || DistanceModel::fit_with_divisor(x, d))?
-            }
-            "ledoit_wolf" => threads::run(py, threads, || DistanceModel::fit_ledoit_wolf(x))?,
-            "oas" => {
-                let formula = match oas_formula.unwrap_or("published") {
-                    "published" => OasFormula::Published,
-                    "without_two_over_p" => OasFormula::WithoutTwoOverP,
-                    other => {
-                        return Err(invalid(format!(
-                            "oas_formula '{other}': use 'published' (Chen et al. 2010, eq. 23) or \
-                             'without_two_over_p' (the variant scikit-learn computes)"
-                        )))
-                    }
-                };
-                threads::run(py, threads, || DistanceModel::fit_oas(x, formula))?
-            }
-            "mcd" => {
-                let stage = mcd.stage()?;
-                let options = mcd.options();
-                let view = t.matrix.f64_view();
-                let v = view.view();
-                threads::run(py, threads, || {
-                    minimum_covariance_determinant(v, &options).and_then(|fit| match stage {
-                        McdStage::Reweighted => fit.model(),
-                        McdStage::Raw => fit.raw_model(),
-                    })
-                })?
-            }
+        if estimator == "em" && hold_out.is_some() {
+            return Err(invalid(
+                "hold_out needs complete rows (held-out p-values compare distances on every \
+                 variable); fit with another estimator on complete rows",
+            ));
+        }
+        let d = crate::model::divisor(divisor.unwrap_or("unbiased"))?;
+        let formula = match oas_formula.unwrap_or("published") {
+            "published" => OasFormula::Published,
+            "without_two_over_p" => OasFormula::WithoutTwoOverP,
             other => {
                 return Err(invalid(format!(
-                    "estimator '{other}': use 'classical', 'ledoit_wolf', 'oas' or 'mcd'"
+                    "oas_formula '{other}': use 'published' (Chen et al. 2010, eq. 23) or \
+                     'without_two_over_p' (the variant scikit-learn computes)"
                 )))
             }
         };
+        let stage = mcd.stage()?;
+        let options = mcd.options();
+        let choice = match estimator {
+            "classical" | "ledoit_wolf" | "oas" | "mcd" | "em" => estimator,
+            other => {
+                return Err(invalid(format!(
+                    "estimator '{other}': use 'classical', 'ledoit_wolf', 'oas', 'mcd' or 'em' \
+                     (rows with empty cells as NaN)"
+                )))
+            }
+        };
+        let fit_view = |v: ArrayView2<'_, f64>| match choice {
+            "classical" => DistanceModel::fit_with_divisor(v, d),
+            "ledoit_wolf" => DistanceModel::fit_ledoit_wolf(v),
+            "oas" => DistanceModel::fit_oas(v, formula),
+            "em" => DistanceModel::fit_incomplete(v, &EmOptions::default()),
+            _ => minimum_covariance_determinant(v, &options).and_then(|fit| match stage {
+                McdStage::Reweighted => fit.model(),
+                McdStage::Raw => fit.raw_model(),
+            }),
+        };
+        let view = t.matrix.f64_view();
+        let v = view.view();
+        let model = threads::run(py, threads, || match hold_out {
+            None => fit_view(v),
+            Some(fraction) => {
+                let split = HoldOutOptions::default()
+                    .with_fraction(fraction)
+                    .with_seed(hold_out_seed);
+                fit_holding_out(v, &split, fit_view)
+            }
+        })?;
         let model = check(model)?;
         if let Some(n) = &names {
             if n.len() != model.dim() {
@@ -425,32 +443,140 @@ impl PyDistanceModel {
     ///     >>> s = m.score(rows, origin="in_sample")
     ///     >>> bool(s.flags(0.01, "bonferroni").sum() <= 1)
     ///     True
-    #[pyo3(signature = (rows, origin="new", threads=None))]
+    #[pyo3(signature = (rows, origin="new", threads=None, *, p_values="law", delta=0.05))]
     fn score(
         &self,
         py: Python<'_>,
         rows: &Bound<'_, PyAny>,
         origin: &str,
         threads: Option<usize>,
+        p_values: &str,
+        delta: f64,
     ) -> PyResult<PyScores> {
         let o = crate::model::origin(origin)?;
+        let kind = empirical_kind(p_values, delta)?;
+        if kind.is_some() && o != RowOrigin::New {
+            return Err(invalid(
+                "held-out p-values are for new rows; use origin='new' with them",
+            ));
+        }
         let m = self.rows_of(rows)?;
         let n = m.nrows();
         let x = m.rows();
         let (d2, p, reference) = threads::run(py, threads, || {
             let mut d2 = vec![0.0; n];
             let mut p = vec![0.0; n];
-            self.model
-                .score_into(x, o, &mut d2, &mut p)
-                .map(|r| (d2, p, r))
+            match kind {
+                None => self
+                    .model
+                    .score_into(x, o, &mut d2, &mut p)
+                    .map(|r| (d2, p, Some(r))),
+                Some(k) => self
+                    .model
+                    .score_held_out_into(x, k, &mut d2, &mut p)
+                    .map(|_| (d2, p, None)),
+            }
         })?
         .map_err(error)?;
         Ok(PyScores {
             squared_distances: d2.into_pyarray(py).unbind(),
             p_values: p.into_pyarray(py).unbind(),
             reference,
+            basis: p_values_name(kind),
             origin: o,
         })
+    }
+
+    /// Scores rows whose empty cells are NaN on their observed variables
+    /// (the model's marginal law on them), as a dict of numpy arrays:
+    /// ``squared_distances``, ``p_values``, ``observed`` (the number of
+    /// variables each row had), and ``patterns`` (distinct patterns of
+    /// empty cells).
+    ///
+    /// Example:
+    ///     >>> import numpy as np, mvdist
+    ///     >>> rows = np.random.default_rng(4).normal(size=(50, 3))
+    ///     >>> m = mvdist.DistanceModel.fit(rows)
+    ///     >>> s = m.score_observed([[0.1, np.nan, 0.2], [0.0, 0.5, -0.1]])
+    ///     >>> s["observed"].tolist()
+    ///     [2, 3]
+    #[pyo3(signature = (rows, origin="new", threads=None))]
+    fn score_observed(
+        &self,
+        py: Python<'_>,
+        rows: &Bound<'_, PyAny>,
+        origin: &str,
+        threads: Option<usize>,
+    ) -> PyResult<Py<PyAny>> {
+        let o = crate::model::origin(origin)?;
+        let m = self.rows_of(rows)?;
+        let x = m.rows();
+        let s = check(threads::run(py, threads, || {
+            self.model.score_observed(x, o)
+        })?)?;
+        let d = pyo3::types::PyDict::new(py);
+        d.set_item("squared_distances", s.squared_distances.into_pyarray(py))?;
+        d.set_item("p_values", s.p_values.into_pyarray(py))?;
+        let observed: Vec<i64> = s.observed.iter().map(|&k| k as i64).collect();
+        d.set_item("observed", observed.into_pyarray(py))?;
+        d.set_item("patterns", s.patterns)?;
+        Ok(d.into_any().unbind())
+    }
+
+    /// The number of held-out calibration rows the model carries (fitted
+    /// with ``hold_out=``), or None.
+    #[getter]
+    fn calibration_size(&self) -> Option<usize> {
+        self.model.calibration().map(|c| c.len())
+    }
+
+    /// The held-out calibration rows' squared distances, increasing, or
+    /// None.
+    #[getter]
+    fn calibration_squared_distances<'py>(
+        &self,
+        py: Python<'py>,
+    ) -> Option<Bound<'py, PyArray1<f64>>> {
+        self.model
+            .calibration()
+            .map(|c| c.squared_distances().to_vec().into_pyarray(py))
+    }
+
+    /// The squared distance above which held-out p-values are at most
+    /// ``alpha`` (``p_values`` ``"held_out"`` or
+    /// ``"held_out_conditional"`` with ``delta``). Raises MvdistError below
+    /// the smallest attainable p-value, 1/(m + 1), saying how many rows to
+    /// hold out.
+    #[pyo3(signature = (alpha, p_values="held_out", delta=0.05))]
+    fn held_out_cutoff(&self, alpha: f64, p_values: &str, delta: f64) -> PyResult<f64> {
+        let kind = empirical_kind(p_values, delta)?
+            .ok_or_else(|| invalid("p_values: use 'held_out' or 'held_out_conditional'"))?;
+        check(self.model.held_out_cutoff(alpha, kind))
+    }
+
+    /// How the F cutoffs fare on the held-out calibration rows, as a dict:
+    /// ``held_out_rows``, ``reference``, ``levels`` (each with ``alpha``,
+    /// ``cutoff``, ``exceedances``, ``rate``, ``interval``, ``verdict``,
+    /// ``reading``), ``theoretical`` and ``observed`` (Q–Q coordinates)
+    /// and ``caution``.
+    ///
+    /// Example:
+    ///     >>> import numpy as np, mvdist
+    ///     >>> rows = np.random.default_rng(5).standard_t(3, size=(4000, 3))
+    ///     >>> m = mvdist.DistanceModel.fit(rows, hold_out=0.5, hold_out_seed=1)
+    ///     >>> check = m.calibration_check()
+    ///     >>> check["levels"][1]["verdict"]
+    ///     'too_many_flags'
+    fn calibration_check(&self, py: Python<'_>) -> PyResult<Py<PyAny>> {
+        let c = check(mvdist::held_out::CalibrationCheck::of_model(&self.model))?;
+        crate::convert::to_python(py, &c)
+    }
+
+    /// The Q–Q chart of the held-out rows against the F law, as SVG text.
+    #[pyo3(signature = (title="held-out reference rows"))]
+    fn calibration_chart(&self, title: &str) -> PyResult<String> {
+        let c = check(mvdist::held_out::CalibrationCheck::of_model(&self.model))?;
+        Ok(c.to_svg(title))
     }
 
     /// The squared distance above which a row's p-value is below
@@ -599,7 +725,8 @@ pub(crate) fn reference_dict(py: Python<'_>, r: &Reference) -> PyResult<Py<PyAny
 pub(crate) struct PyScores {
     squared_distances: Py<PyArray1<f64>>,
     p_values: Py<PyArray1<f64>>,
-    reference: Reference,
+    reference: Option<Reference>,
+    basis: &'static str,
     origin: RowOrigin,
 }
 
@@ -623,10 +750,20 @@ impl PyScores {
         origin_name(self.origin)
     }
 
-    /// The reference law used, as a dict.
+    /// The reference law used, as a dict (None for held-out p-values).
     #[getter]
-    fn reference(&self, py: Python<'_>) -> PyResult<Py<PyAny>> {
-        reference_dict(py, &self.reference)
+    fn reference(&self, py: Python<'_>) -> PyResult<Option<Py<PyAny>>> {
+        self.reference
+            .as_ref()
+            .map(|r| reference_dict(py, r))
+            .transpose()
+    }
+
+    /// Where the p-values come from: ``"law"``, ``"held_out"`` or
+    /// ``"held_out_conditional"``.
+    #[getter]
+    fn basis(&self) -> &'static str {
+        self.basis
     }
 
     /// p-values adjusted for testing many rows: ``"none"``,
@@ -665,10 +802,10 @@ impl PyScores {
 
     fn __repr__(&self, py: Python<'_>) -> String {
         format!(
-            "Scores(rows={}, origin='{}', reference='{}')",
+            "Scores(rows={}, origin='{}', p-values from '{}')",
             self.squared_distances.bind(py).len().unwrap_or(0),
             origin_name(self.origin),
-            self.reference.kind().name()
+            self.reference.map_or("held-out rows", |r| r.kind().name())
         )
     }
 }
@@ -820,5 +957,29 @@ impl PyContributions {
             self.total,
             parts.join(", ")
         )
+    }
+}
+
+/// The held-out p-value kind for a ``p_values`` argument (None for the law).
+fn empirical_kind(p_values: &str, delta: f64) -> PyResult<Option<EmpiricalPValue>> {
+    let kind = match p_values {
+        "law" => return Ok(None),
+        "held_out" => EmpiricalPValue::Marginal,
+        "held_out_conditional" => EmpiricalPValue::CalibrationConditional { delta },
+        other => {
+            return Err(invalid(format!(
+                "p_values '{other}': use 'law', 'held_out' or 'held_out_conditional'"
+            )))
+        }
+    };
+    check(kind.check())?;
+    Ok(Some(kind))
+}
+
+fn p_values_name(kind: Option<EmpiricalPValue>) -> &'static str {
+    match kind {
+        None => "law",
+        Some(EmpiricalPValue::Marginal) => "held_out",
+        Some(_) => "held_out_conditional",
     }
 }

@@ -133,6 +133,9 @@ fn test_named(name: &str) -> PyResult<NormalityTest> {
 /// (observations × variables; numpy array or DataFrame) and returns a
 /// NormalityReport. The thresholds elsewhere in mvdist assume multivariate
 /// normality; this report is evidence about that assumption, not proof.
+/// With ``hold_out`` (a fraction), the report also checks the F cutoffs on
+/// that share of the rows, held out from a classical fit (its
+/// ``to_dict()["calibration"]``).
 ///
 /// Example:
 ///     >>> import numpy as np, mvdist
@@ -141,7 +144,7 @@ fn test_named(name: &str) -> PyResult<NormalityTest> {
 ///     >>> 0.0 <= report.p_value("henze_zirkler") <= 1.0
 ///     True
 #[pyfunction]
-#[pyo3(signature = (rows, alpha=0.05, pairwise_row_limit=50_000, variables=None, threads=None))]
+#[pyo3(signature = (rows, alpha=0.05, pairwise_row_limit=50_000, variables=None, threads=None, *, hold_out=None))]
 pub(crate) fn normality_report(
     py: Python<'_>,
     rows: &Bound<'_, PyAny>,
@@ -149,12 +152,16 @@ pub(crate) fn normality_report(
     pairwise_row_limit: usize,
     variables: Option<Vec<String>>,
     threads: Option<usize>,
+    hold_out: Option<f64>,
 ) -> PyResult<PyNormalityReport> {
     let t = table(rows, "rows")?;
     let names = variables.or(t.names);
-    let options = NormalityOptions::default()
+    let mut options = NormalityOptions::default()
         .with_alpha(alpha)
         .with_pairwise_row_limit(pairwise_row_limit);
+    if let Some(f) = hold_out {
+        options = options.with_calibration_check(f);
+    }
     let x = t.matrix.f64_view();
     let v = x.view();
     let report = check(threads::run(py, threads, || {

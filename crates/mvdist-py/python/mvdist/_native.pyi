@@ -45,7 +45,8 @@ _Path = Union[os.PathLike[str], str]
 _Origin = Literal["new", "in_sample", "known", "known_parameters"]
 _OriginName = Literal["new", "in_sample", "known"]
 _Adjustment = Literal["none", "bonferroni", "benjamini_hochberg"]
-_Estimator = Literal["classical", "ledoit_wolf", "oas", "mcd"]
+_Estimator = Literal["classical", "ledoit_wolf", "oas", "mcd", "em"]
+_PValues = Literal["law", "held_out", "held_out_conditional"]
 _Divisor = Literal["unbiased", "maximum_likelihood"]
 _OasFormula = Literal["published", "without_two_over_p"]
 _Stage = Literal["reweighted", "raw"]
@@ -113,6 +114,8 @@ class DistanceModel:
         starts: Optional[int] = None,
         stage: Optional[_Stage] = None,
         variables: Optional[Sequence[str]] = None,
+        hold_out: Optional[float] = None,
+        hold_out_seed: int = 0,
         threads: Optional[int] = None,
     ) -> DistanceModel:
         """Fits a model to ``rows`` (observations × variables; numpy array or pandas DataFrame)."""
@@ -156,8 +159,38 @@ class DistanceModel:
     def squared_distances(self, rows: _Rows, threads: Optional[int] = None) -> NDArray[np.float64]:
         """Squared distances of every row, a float64 array of length n."""
 
-    def score(self, rows: _Rows, origin: _Origin = "new", threads: Optional[int] = None) -> Scores:
+    def score(
+        self,
+        rows: _Rows,
+        origin: _Origin = "new",
+        threads: Optional[int] = None,
+        *,
+        p_values: _PValues = "law",
+        delta: float = 0.05,
+    ) -> Scores:
         """Squared distances and upper-tail p-values of every row, as a Scores object."""
+
+    def score_observed(
+        self, rows: _Rows, origin: _Origin = "new", threads: Optional[int] = None
+    ) -> dict[str, Any]:
+        """Scores rows whose empty cells are NaN on their observed variables, as a dict of numpy arrays."""
+
+    @property
+    def calibration_size(self) -> Optional[int]:
+        """The number of held-out calibration rows the model carries, or None."""
+
+    @property
+    def calibration_squared_distances(self) -> Optional[NDArray[np.float64]]:
+        """The held-out calibration rows' squared distances, increasing, or None."""
+
+    def held_out_cutoff(self, alpha: float, p_values: _PValues = "held_out", delta: float = 0.05) -> float:
+        """The squared distance above which held-out p-values are at most ``alpha``."""
+
+    def calibration_check(self) -> dict[str, Any]:
+        """How the F cutoffs fare on the held-out calibration rows, as a dict."""
+
+    def calibration_chart(self, title: str = "held-out reference rows") -> str:
+        """The Q–Q chart of the held-out rows against the F law, as SVG text."""
 
     def cutoff(self, alpha: float, origin: _Origin = "new") -> float:
         """The squared distance above which a row's p-value is below ``alpha``, under the reference law of ``origin``."""
@@ -211,8 +244,12 @@ class Scores:
         """The origin the rows were scored as ("new", "in_sample", "known")."""
 
     @property
-    def reference(self) -> _Reference:
-        """The reference law used, as a dict."""
+    def reference(self) -> Optional[_Reference]:
+        """The reference law used, as a dict (None for held-out p-values)."""
+
+    @property
+    def basis(self) -> _PValues:
+        """Where the p-values come from: ``"law"``, ``"held_out"`` or ``"held_out_conditional"``."""
 
     def adjusted_p_values(self, adjustment: _Adjustment = "none") -> NDArray[np.float64]:
         """p-values adjusted for testing many rows: ``"none"``, ``"bonferroni"`` or ``"benjamini_hochberg"``."""
@@ -329,6 +366,8 @@ def normality_report(
     pairwise_row_limit: int = 50000,
     variables: Optional[Sequence[str]] = None,
     threads: Optional[int] = None,
+    *,
+    hold_out: Optional[float] = None,
 ) -> NormalityReport:
     """Runs every multivariate normality test that applies to ``rows`` and returns a NormalityReport."""
 
