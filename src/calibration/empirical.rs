@@ -30,10 +30,11 @@
 //!
 //! which is at least the true tail probability of `d²` for every `d²` at
 //! once, except on calibration sets of probability at most `δ` (Massart
-//! 1990 holds for `δ ≤ ½`). So, with probability at least `1 − δ` over the
+//! 1990 holds for `δ ≤ ½`; the inequality is for independent, identically
+//! distributed calibration rows, a little more than exchangeability). So, with probability at least `1 − δ` over the
 //! calibration rows, `P(p ≤ α | calibration rows) ≤ α` for every `α`. This
 //! is the DKWM form of the adjustment of Bates et al. (2023, Section 3);
-//! it costs power (the margin is 0.086 for `m = 200`, `δ = 0.05`).
+//! it costs power (the margin is 0.0865 for `m = 200`, `δ = 0.05`).
 //!
 //! **Caution.** Exchangeability is the whole assumption: calibration rows
 //! from another period, batch or instrument than the rows scored do not
@@ -136,7 +137,7 @@ impl PartialEq for EmpiricalReference {
 /// value, so `key(d) = (bits(d) − bits(smallest)) >> shift` is exactly
 /// monotone; `index[k]` is the number of values whose key is below `k`.
 /// A lookup starts there and counts the few values of its bucket that
-/// are below it, without branches; `padded` is `sorted` followed by two
+/// are below it without branching on them (a crowded bucket is bisected); `padded` is `sorted` followed by two
 /// `+∞` so the comparisons need no bounds checks.
 #[derive(Clone, Debug, Default)]
 struct Lookup {
@@ -310,24 +311,33 @@ impl EmpiricalReference {
         m - self.sorted.partition_point(|&c| c < d2 || d2.is_nan())
     }
 
-    /// The marginal conformal p-value `(1 + #{cᵢ ≥ d2}) / (m + 1)`.
+    /// The marginal conformal p-value `(1 + #{cᵢ ≥ d2}) / (m + 1)`; NaN
+    /// for a NaN `d2` (as the reference laws give).
     pub fn p_value(&self, d2: f64) -> f64 {
-        (1 + self.count_at_least(d2)) as f64 / (self.sorted.len() + 1) as f64
+        if d2.is_nan() {
+            return f64::NAN;
+        }
+        self.p_value_from_count(self.count_at_least(d2), EmpiricalPValue::Marginal)
     }
 
-    /// The p-value of the given kind; for the conditional kind an invalid
-    /// `delta` gives NaN (check it first with [`EmpiricalPValue::check`]).
-    pub fn p_value_of(&self, d2: f64, kind: EmpiricalPValue) -> f64 {
+    /// The p-value of the given kind for `count` calibration values at or
+    /// above the squared distance.
+    fn p_value_from_count(&self, count: usize, kind: EmpiricalPValue) -> f64 {
         match kind {
-            EmpiricalPValue::Marginal => self.p_value(d2),
+            EmpiricalPValue::Marginal => (1 + count) as f64 / (self.sorted.len() + 1) as f64,
             EmpiricalPValue::CalibrationConditional { delta } => {
-                if !(delta > 0.0 && delta <= 0.5) {
-                    return f64::NAN;
-                }
-                let m = self.sorted.len() as f64;
-                (self.count_at_least(d2) as f64 / m + self.margin(delta)).min(1.0)
+                (count as f64 / self.sorted.len() as f64 + self.margin(delta)).min(1.0)
             }
         }
+    }
+
+    /// The p-value of the given kind; NaN for a NaN `d2` or an invalid
+    /// `delta` (check it first with [`EmpiricalPValue::check`]).
+    pub fn p_value_of(&self, d2: f64, kind: EmpiricalPValue) -> f64 {
+        if kind.check().is_err() || d2.is_nan() {
+            return f64::NAN;
+        }
+        self.p_value_from_count(self.count_at_least(d2), kind)
     }
 
     /// The DKWM margin `√(ln(1/δ) / (2m))`.
@@ -336,10 +346,11 @@ impl EmpiricalReference {
     }
 
     /// The smallest p-value of the given kind: `1/(m + 1)` (marginal) or
-    /// the DKWM margin (conditional).
+    /// the DKWM margin (conditional; NaN for an invalid `delta`).
     pub fn smallest_p_value_of(&self, kind: EmpiricalPValue) -> f64 {
         match kind {
             EmpiricalPValue::Marginal => self.smallest_p_value(),
+            EmpiricalPValue::CalibrationConditional { .. } if kind.check().is_err() => f64::NAN,
             EmpiricalPValue::CalibrationConditional { delta } => self.margin(delta).min(1.0),
         }
     }
@@ -378,19 +389,22 @@ impl EmpiricalReference {
                 ),
             ));
         }
-        // Rows strictly above sorted[k] have count ≤ m − k − 1; find the
-        // smallest k whose count gives a p-value ≤ alpha.
+        // A row strictly above sorted[m − a − 1] has at most `a` values at
+        // or above it. Find the largest count `a` whose p-value is at most
+        // alpha, by the exact expression of the p-value (the p-value grows
+        // with the count, so start from the rounded estimate and step).
         let mf = m as f64;
-        let allowed = match kind {
-            // (1 + c)/(m + 1) ≤ α  ⇔  c ≤ α(m + 1) − 1
-            EmpiricalPValue::Marginal => (alpha * (mf + 1.0) - 1.0 + 1e-9).floor(),
-            // c/m + ε ≤ α  ⇔  c ≤ m(α − ε)
-            EmpiricalPValue::CalibrationConditional { delta } => {
-                (mf * (alpha - self.margin(delta)) + 1e-9).floor()
-            }
+        let estimate = match kind {
+            EmpiricalPValue::Marginal => alpha * (mf + 1.0) - 1.0,
+            EmpiricalPValue::CalibrationConditional { delta } => mf * (alpha - self.margin(delta)),
         };
-        let allowed = allowed.clamp(0.0, mf) as usize;
-        // d2 > sorted[m − allowed − 1] has count ≤ allowed.
+        let mut allowed = estimate.floor().clamp(0.0, mf) as usize;
+        while allowed > 0 && self.p_value_from_count(allowed, kind) > alpha {
+            allowed -= 1;
+        }
+        while allowed < m && self.p_value_from_count(allowed + 1, kind) <= alpha {
+            allowed += 1;
+        }
         if allowed >= m {
             return Ok(0.0);
         }
@@ -409,7 +423,9 @@ mod tests {
         let mut values: Vec<f64> = (0..997)
             .map(|i| ((i * 7919) % 1000) as f64 / 37.0)
             .collect();
-        values.extend([0.0, 0.0, 1e-300, 5.0, 5.0, 5.0, 1e300, 3.0e10]);
+        values.extend([
+            0.0, -0.0, 0.0, 1e-300, 5e-324, 2.0e-310, 5.0, 5.0, 5.0, 1e300, 3.0e10,
+        ]);
         values.extend(std::iter::repeat_n(2.5, 50));
         let r = EmpiricalReference::from_squared_distances(values.clone()).unwrap();
         let mut probes: Vec<f64> = values.clone();
@@ -428,6 +444,30 @@ mod tests {
             let want = values.iter().filter(|&&c| c >= d).count();
             assert_eq!(r.count_at_least(d), want, "{d}");
         }
+        // Every value zero; a single value.
+        let zeros = EmpiricalReference::from_squared_distances(vec![0.0; 7]).unwrap();
+        assert_eq!(zeros.count_at_least(0.0), 7);
+        assert_eq!(zeros.count_at_least(1e-300), 0);
+        let one = EmpiricalReference::from_squared_distances(vec![2.0]).unwrap();
+        assert_eq!(
+            (one.count_at_least(2.0), one.count_at_least(2.0000001)),
+            (1, 0)
+        );
+    }
+
+    #[test]
+    fn cutoff_at_attainable_levels_exactly() {
+        // α = k/(m + 1) is attained exactly; just below it, one count less.
+        let values: Vec<f64> = (1..=99).map(f64::from).collect();
+        let r = EmpiricalReference::from_squared_distances(values).unwrap();
+        for k in [5usize, 10, 37] {
+            let alpha = k as f64 / 100.0;
+            for a in [alpha, alpha - 1e-12, alpha + 1e-12] {
+                let c = r.cutoff(a, EmpiricalPValue::Marginal).unwrap();
+                assert!(r.p_value(c + 1e-9) <= a, "{a}");
+                assert!(r.p_value(c) > a, "{a}");
+            }
+        }
     }
 
     #[test]
@@ -437,7 +477,8 @@ mod tests {
         assert_eq!(r.count_at_least(0.0), 4);
         assert_eq!(r.count_at_least(3.5), 0);
         assert_eq!(r.p_value(0.0), 1.0);
-        assert_eq!(r.p_value(f64::NAN), 0.2);
+        assert!(r.p_value(f64::NAN).is_nan());
+        assert_eq!(r.count_at_least(f64::NAN), 0);
     }
 
     #[test]

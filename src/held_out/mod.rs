@@ -194,6 +194,25 @@ fn in_rows(e: Error, part: &[usize]) -> Error {
             value,
         },
         Error::Overflow { row } if row < part.len() => Error::Overflow { row: part[row] },
+        Error::ExactFit { mut hyperplane } => {
+            for r in hyperplane.rows.iter_mut() {
+                if let Some(&whole) = part.get(*r) {
+                    *r = whole;
+                }
+            }
+            Error::ExactFit { hyperplane }
+        }
+        Error::TooFewRows {
+            rows,
+            needed,
+            columns,
+        } => Error::invalid(
+            "held-out fraction",
+            format!(
+                "the {rows} rows left after holding some out are too few for {columns} \
+                 columns (at least {needed} are needed); hold out a smaller fraction"
+            ),
+        ),
         other => other,
     }
 }

@@ -11,12 +11,9 @@ const LEFT: f64 = 72.0;
 const RIGHT: f64 = 24.0;
 const TOP: f64 = 64.0;
 const BOTTOM: f64 = 96.0;
-/// At most this many points are drawn: evenly spaced ranks, plus every one
-/// of the largest 100 (where departures from the law matter).
-const MOST_POINTS: usize = 2000;
 
 pub(super) fn qq_svg(check: &CalibrationCheck, title: &str) -> String {
-    let m = check.observed.len();
+    let m = check.held_out_rows;
     let top = check
         .observed
         .iter()
@@ -101,11 +98,7 @@ pub(super) fn qq_svg(check: &CalibrationCheck, title: &str) -> String {
         }
     }
     // The points.
-    let stride = m.div_ceil(MOST_POINTS).max(1);
-    for (i, (&t, &o)) in check.theoretical.iter().zip(&check.observed).enumerate() {
-        if i % stride != 0 && i + 100 < m {
-            continue;
-        }
+    for (&t, &o) in check.theoretical.iter().zip(&check.observed) {
         let _ = writeln!(
             s,
             r##"<circle cx="{:.1}" cy="{:.1}" r="2.2" fill="#1f5fa8" fill-opacity="0.7"/>"##,

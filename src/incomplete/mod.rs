@@ -7,7 +7,8 @@
 //!   ([`crate::DistanceModel::score_observed`],
 //!   [`crate::DistanceModel::score_row_observed`],
 //!   [`crate::DistanceModel::explain_observed`]), for a model from any
-//!   estimator;
+//!   estimator (the reference laws stay exact for classical fits; see
+//!   there);
 //! * **fitting** from rows with gaps is done by [`expectation_maximization`]
 //!   (the normal-theory maximum-likelihood estimate of the mean and
 //!   covariance from every observed cell). It is the only estimator that

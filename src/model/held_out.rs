@@ -69,8 +69,9 @@ impl DistanceModel {
     /// Squared distances and distribution-free p-values from the model's
     /// calibration rows (see [`crate::calibration::EmpiricalReference`]):
     /// valid for new rows exchangeable with the calibration rows, whatever
-    /// their distribution. Costs one binary search per row over the
-    /// sorted calibration values.
+    /// their distribution. Costs one lookup per row in an exact bucket index
+    /// over the sorted calibration values, in the same task as the
+    /// distances.
     ///
     /// # Errors
     /// [`Error::InvalidParameter`] if the model has no calibration rows or

@@ -10,10 +10,16 @@
 //! ```
 //!
 //! referred to the model's law with `p_o = |o|` variables (χ²(p_o), or the
-//! F or Beta law with `p_o` and the same `n`: the sample covariance of the
-//! observed variables is the principal sub-matrix of the sample covariance,
-//! so the exact results hold for the sub-vector as they do for the whole).
-//! A batch factors `Σ_oo` once per pattern of empty cells.
+//! F or Beta law with `p_o` and the same `n`). The laws stay exact for a
+//! classical fit on complete rows (either divisor): the sample covariance
+//! of the observed variables is the principal sub-matrix of the sample
+//! covariance, so the exact results hold for the sub-vector as they do for
+//! the whole. For the other estimators the sub-vector's law is as
+//! approximate as the full one, and a little more: a shrinkage target
+//! computed from all `p` variables, an MCD subset size or simulated Wishart
+//! degrees of freedom chosen for `p`, and an EM fit (approximate already)
+//! are reused for `p_o` variables. A batch factors `Σ_oo` once per pattern
+//! of empty cells.
 //!
 //! A distance on fewer variables has less power: a row whose unusual value
 //! sits in an empty cell cannot be flagged for it. The output says how many
@@ -194,7 +200,23 @@ impl DistanceModel {
         // A principal sub-matrix of a positive definite matrix is positive
         // definite; the check can only fail by rounding on a scatter at the
         // edge of collinearity.
-        let scatter = Scatter::from_row_major(&sub, k)?;
+        // Errors name the column of the model, not of the sub-matrix.
+        let scatter = Scatter::from_row_major(&sub, k).map_err(|e| match e {
+            Error::Collinear {
+                column,
+                residual_fraction,
+            } => Error::Collinear {
+                column: columns[column.min(k - 1)],
+                residual_fraction,
+            },
+            Error::NotPositiveDefinite { column } => Error::NotPositiveDefinite {
+                column: columns[column.min(k - 1)],
+            },
+            Error::ZeroVariance { column } => Error::ZeroVariance {
+                column: columns[column.min(k - 1)],
+            },
+            other => other,
+        })?;
         let location = columns.iter().map(|&j| self.location[j]).collect();
         Ok(Pattern {
             columns,

@@ -240,6 +240,14 @@ impl NormalityOptions {
 
     fn validate(&self) -> Result<()> {
         check_probability(self.alpha)?;
+        if let Some(f) = self.hold_out {
+            if !(f > 0.0 && f < 1.0) {
+                return Err(Error::invalid(
+                    "held-out fraction",
+                    format!("{f} is not in (0, 1); a fifth to a half of the rows is usual"),
+                ));
+            }
+        }
         if self.pairwise_row_limit == 0 {
             return Err(Error::invalid(
                 "pairwise row limit",
@@ -303,6 +311,9 @@ pub struct NormalityReport {
     /// ([`NormalityOptions::with_calibration_check`]).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::held_out::CalibrationCheck>,
+    /// Why the calibration check asked for is missing, if it is.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration_not_computed: Option<String>,
     /// How to read (and not read) the results.
     pub caution: String,
 }
@@ -457,14 +468,24 @@ impl NormalityReport {
                 shapiro_wilk_p_value: s.shapiro_wilk.map(|t| t.p_value()),
             })
             .collect();
-        let calibration = match options.hold_out {
-            None => None,
+        // A calibration check that cannot be made (too few rows left after
+        // the split, say) is reported with its reason; it does not stop the
+        // tests. An invalid fraction is an error, like other options.
+        let (calibration, calibration_not_computed) = match options.hold_out {
+            None => (None, None),
             Some(fraction) => {
                 let split = crate::held_out::HoldOutOptions::default().with_fraction(fraction);
-                let model = crate::held_out::fit_holding_out(rows, &split, |r| {
+                let check = crate::held_out::fit_holding_out(rows, &split, |r| {
                     crate::DistanceModel::fit(r)
-                })?;
-                Some(crate::held_out::CalibrationCheck::of_model(&model)?)
+                })
+                .and_then(|model| crate::held_out::CalibrationCheck::of_model(&model));
+                match check {
+                    Ok(c) => (Some(c), None),
+                    Err(e) => (
+                        None,
+                        Some(format!("the calibration check was not made: {e}")),
+                    ),
+                }
             }
         };
         Ok(NormalityReport {
@@ -475,6 +496,7 @@ impl NormalityReport {
             per_variable,
             shapiro_wilk_not_computed,
             calibration,
+            calibration_not_computed,
             caution: CAUTION.to_string(),
         })
     }

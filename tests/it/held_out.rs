@@ -102,7 +102,13 @@ fn held_out_p_values_are_valid_for_heavy_tails_short() {
     let rates = rejection_rates(Population::StudentT3, reps, 199, 3, &[0.05], 1);
     let (c, f) = rates[0];
     let se = standard_error(0.05, reps);
-    assert!(c <= 0.05 + 3.0 * se, "held-out rate {c}");
+    // With m = 100 calibration rows and continuous scores the rejection
+    // rate is exactly ⌊α(m + 1)⌋/(m + 1) (Bates et al. 2023): two-sided.
+    let exact = (0.05f64 * 101.0).floor() / 101.0;
+    assert!(
+        (c - exact).abs() <= 3.0 * se,
+        "held-out rate {c} vs {exact}"
+    );
     assert!(f > 0.05 + 3.0 * se, "F rate {f} should fail under t3");
 }
 
@@ -127,6 +133,12 @@ fn held_out_p_values_are_valid_where_the_f_reference_fails() {
             let se = standard_error(a, reps);
             println!("{population:?} alpha {a}: held-out {c:.4}, F {f:.4} (SE {se:.4})");
             assert!(c <= a + 3.0 * se, "{population:?} α={a}: held-out rate {c}");
+            // Exactly ⌊α(m + 1)⌋/(m + 1) with m = 200 held-out rows.
+            let exact = (a * 201.0).floor() / 201.0;
+            assert!(
+                (c - exact).abs() <= 3.0 * se,
+                "{population:?} α={a}: {c} vs {exact}"
+            );
             assert!(
                 (f - a).abs() > 3.0 * se,
                 "{population:?} α={a}: F rate {f} should differ from α"
@@ -377,7 +389,9 @@ fn the_calibration_check_reads_the_data() {
     assert!(big.matches("<circle").count() <= 2100);
     // Theoretical quantiles increase with the ranks.
     assert!(t3.theoretical.windows(2).all(|w| w[0] < w[1]));
-    assert_eq!(t3.observed.len(), 4000);
+    assert_eq!(t3.held_out_rows, 4000);
+    assert!(t3.observed.len() <= 2100 && t3.observed.len() >= 2000);
+    assert_eq!(small.observed.len(), 200);
 }
 
 #[test]

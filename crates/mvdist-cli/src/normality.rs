@@ -64,6 +64,10 @@ pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
                 println!("  {}", level.reading);
             }
         }
+        if let Some(why) = &report.calibration_not_computed {
+            println!();
+            println!("{why}");
+        }
     }
     if let (Some(check), Some(path)) = (&report.calibration, &args.calibration_chart) {
         let title = format!("Held-out rows of {}", args.data.display());

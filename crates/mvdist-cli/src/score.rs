@@ -57,9 +57,10 @@ pub struct ScoreArgs {
     #[arg(long, value_enum, default_value = "law")]
     pub p_values: PValueChoice,
     /// With --p-values held-out-conditional: the chance that the calibration
-    /// rows are unlucky (the guarantee holds except with this probability).
-    #[arg(long, default_value_t = 0.05, value_name = "DELTA")]
-    pub delta: f64,
+    /// rows are unlucky (the guarantee holds except with this probability;
+    /// default 0.05).
+    #[arg(long, value_name = "DELTA")]
+    pub delta: Option<f64>,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
@@ -148,10 +149,22 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
     let empirical = match args.p_values {
         PValueChoice::Law => None,
         PValueChoice::HeldOut => Some(EmpiricalPValue::Marginal),
-        PValueChoice::HeldOutConditional => {
-            Some(EmpiricalPValue::CalibrationConditional { delta: args.delta })
-        }
+        PValueChoice::HeldOutConditional => Some(EmpiricalPValue::CalibrationConditional {
+            delta: args.delta.unwrap_or(0.05),
+        }),
     };
+    if args.delta.is_some() && args.p_values != PValueChoice::HeldOutConditional {
+        return Err(CliError(
+            "--delta applies to --p-values held-out-conditional only".into(),
+        ));
+    }
+    if args.observed_only && empirical.is_some() {
+        return Err(CliError(
+            "--observed-only and held-out p-values do not mix: the calibration distances use \
+             every variable; use --p-values law with --observed-only"
+                .into(),
+        ));
+    }
     let calibration = match empirical {
         None => None,
         Some(kind) => {
@@ -336,7 +349,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         Some((c, _)) => format!(
             "calibration-conditional held-out p-values from {} rows, delta {}",
             c.len(),
-            args.delta
+            args.delta.unwrap_or(0.05)
         ),
     };
     println!(

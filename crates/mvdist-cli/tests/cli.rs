@@ -1331,7 +1331,7 @@ fn held_out_calibration_rows_round_trip() {
         .stdout(predicate::str::contains("105 rows × 4 variables"))
         .stdout(predicate::str::contains("held out 45 rows"))
         .stdout(predicate::str::contains(
-            "calibration: the F cutoff at 5.0%",
+            "calibration: the fitted F cutoff at 5.0%",
         ));
     assert!(std::fs::read_to_string(&chart).unwrap().contains("<circle"));
     let file = mvdist::model_file::ModelFile::load(&model).unwrap();
@@ -1390,6 +1390,14 @@ fn held_out_calibration_rows_round_trip() {
             "--delta",
         ),
         (&["--p-values", "held-out", "--in-sample"][..], "do not mix"),
+        (
+            &["--p-values", "held-out", "--delta", "0.1"][..],
+            "--delta applies",
+        ),
+        (
+            &["--p-values", "held-out", "--observed-only"][..],
+            "do not mix",
+        ),
     ] {
         let mut args: Vec<&std::ffi::OsStr> = vec![
             "score".as_ref(),
