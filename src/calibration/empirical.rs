@@ -1,53 +1,5 @@
 //! [`EmpiricalReference`]: p-values from held-out reference rows, valid
 //! without any assumption on the distribution of the rows.
-//!
-//! **Split conformal p-values** (Vovk, Gammerman and Shafer 2005; Bates,
-//! Candès, Lei, Romano and Sesia 2023). Fit the location and scatter on one
-//! part of the reference rows, and keep the squared distances
-//! `c₁, …, c_m` of the other `m` rows (the *calibration rows*, never used
-//! in the fit). A new row with squared distance `d²` gets
-//!
-//! ```text
-//! p = (1 + #{i : cᵢ ≥ d²}) / (m + 1).
-//! ```
-//!
-//! If the new row and the calibration rows are exchangeable (for example
-//! independent draws from one population, whatever its shape), then
-//! `P(p ≤ α) ≤ α` for every `α`: the p-value is *super-uniform* in finite
-//! samples. Benjamini–Hochberg on such p-values of many new rows controls
-//! the false discovery rate (Bates et al. 2023, Theorem 2). The smallest
-//! p-value this can give is `1/(m + 1)`: with 99 calibration rows no row
-//! can be flagged at `α < 0.01`.
-//!
-//! **Calibration-conditional p-values.** The guarantee above is an average
-//! over calibration sets; a particular set can be unlucky. The
-//! [`EmpiricalPValue::CalibrationConditional`] variant adds the one-sided
-//! Dvoretzky–Kiefer–Wolfowitz margin with Massart's constant,
-//!
-//! ```text
-//! p = min(1, #{i : cᵢ ≥ d²}/m + √(ln(1/δ) / (2m))),
-//! ```
-//!
-//! which is at least the true tail probability of `d²` for every `d²` at
-//! once, except on calibration sets of probability at most `δ` (Massart
-//! 1990 holds for `δ ≤ ½`; the inequality is for independent, identically
-//! distributed calibration rows, a little more than exchangeability). So, with probability at least `1 − δ` over the
-//! calibration rows, `P(p ≤ α | calibration rows) ≤ α` for every `α`. This
-//! is the DKWM form of the adjustment of Bates et al. (2023, Section 3);
-//! it costs power (the margin is 0.0865 for `m = 200`, `δ = 0.05`).
-//!
-//! **Caution.** Exchangeability is the whole assumption: calibration rows
-//! from another period, batch or instrument than the rows scored do not
-//! give valid p-values. A flag is evidence that a row is unusual, not a
-//! verdict; local procedures and qualified people decide what follows.
-//!
-//! # References
-//! V. Vovk, A. Gammerman and G. Shafer (2005). *Algorithmic Learning in a
-//! Random World.* Springer.
-//! S. Bates, E. Candès, L. Lei, Y. Romano and M. Sesia (2023). Testing for
-//! outliers with conformal p-values. *Annals of Statistics* 51, 149–178.
-//! P. Massart (1990). The tight constant in the Dvoretzky–Kiefer–Wolfowitz
-//! inequality. *Annals of Probability* 18, 1269–1283.
 
 use crate::error::{Error, Result};
 use serde::{Deserialize, Serialize};
@@ -96,8 +48,55 @@ impl EmpiricalPValue {
 /// The squared distances of held-out reference rows, sorted: an empirical
 /// law for the squared distance of a new row from the same population.
 ///
-/// See the [module documentation](self) for the p-values and their
-/// guarantees. Built by [`from_squared_distances`](Self::from_squared_distances)
+/// **Split conformal p-values** (Vovk, Gammerman and Shafer 2005; Bates,
+/// Candès, Lei, Romano and Sesia 2023). Fit the location and scatter on one
+/// part of the reference rows, and keep the squared distances
+/// `c₁, …, c_m` of the other `m` rows (the *calibration rows*, never used
+/// in the fit). A new row with squared distance `d²` gets
+///
+/// ```text
+/// p = (1 + #{i : cᵢ ≥ d²}) / (m + 1).
+/// ```
+///
+/// If the new row and the calibration rows are exchangeable (for example
+/// independent draws from one population, whatever its shape), then
+/// `P(p ≤ α) ≤ α` for every `α`: the p-value is *super-uniform* in finite
+/// samples. Benjamini–Hochberg on such p-values of many new rows controls
+/// the false discovery rate (Bates et al. 2023, Theorem 2). The smallest
+/// p-value this can give is `1/(m + 1)`: with 99 calibration rows no row
+/// can be flagged at `α < 0.01`.
+///
+/// **Calibration-conditional p-values.** The guarantee above is an average
+/// over calibration sets; a particular set can be unlucky. The
+/// [`EmpiricalPValue::CalibrationConditional`] variant adds the one-sided
+/// Dvoretzky–Kiefer–Wolfowitz margin with Massart's constant,
+///
+/// ```text
+/// p = min(1, #{i : cᵢ ≥ d²}/m + √(ln(1/δ) / (2m))),
+/// ```
+///
+/// which is at least the true tail probability of `d²` for every `d²` at
+/// once, except on calibration sets of probability at most `δ` (Massart
+/// 1990 holds for `δ ≤ ½`; the inequality is for independent, identically
+/// distributed calibration rows, a little more than exchangeability). So,
+/// with probability at least `1 − δ` over the calibration rows, `P(p ≤ α | calibration rows) ≤ α` for every `α`. This
+/// is the DKWM form of the adjustment of Bates et al. (2023, Section 3);
+/// it costs power (the margin is 0.0865 for `m = 200`, `δ = 0.05`).
+///
+/// **Caution.** Exchangeability is the whole assumption: calibration rows
+/// from another period, batch or instrument than the rows scored do not
+/// give valid p-values. A flag is evidence that a row is unusual, not a
+/// verdict; local procedures and qualified people decide what follows.
+///
+/// # References
+/// V. Vovk, A. Gammerman and G. Shafer (2005). *Algorithmic Learning in a
+/// Random World.* Springer.
+/// S. Bates, E. Candès, L. Lei, Y. Romano and M. Sesia (2023). Testing for
+/// outliers with conformal p-values. *Annals of Statistics* 51, 149–178.
+/// P. Massart (1990). The tight constant in the Dvoretzky–Kiefer–Wolfowitz
+/// inequality. *Annals of Probability* 18, 1269–1283.
+///
+/// Built by [`from_squared_distances`](Self::from_squared_distances)
 /// (usually through [`crate::DistanceModel::with_calibration_rows`]);
 /// serialized as the sorted values, and checked again when read.
 ///

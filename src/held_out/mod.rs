@@ -57,7 +57,7 @@
 mod check;
 mod svg;
 
-pub use check::{CalibrationCheck, CalibrationVerdict, LevelCheck};
+pub use check::{CalibrationCheck, CalibrationVerdict, LevelCheck, DEFAULT_LEVELS};
 
 use crate::data::Rows;
 use crate::error::{Error, Result};

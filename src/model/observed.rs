@@ -1,30 +1,5 @@
-//! Rows with empty cells, scored on their observed coordinates.
-//!
-//! If `x ~ N(μ, Σ)`, the sub-vector `x_o` of any set `o` of its variables
-//! is `N(μ_o, Σ_oo)`: the marginal of a multivariate normal is normal, with
-//! the matching sub-vector and principal sub-matrix. So a row with empty
-//! cells (NaN) gets the squared distance
-//!
-//! ```text
-//! d²_o = (x_o − μ_o)ᵀ Σ_oo⁻¹ (x_o − μ_o),
-//! ```
-//!
-//! referred to the model's law with `p_o = |o|` variables (χ²(p_o), or the
-//! F or Beta law with `p_o` and the same `n`). The laws stay exact for a
-//! classical fit on complete rows (either divisor): the sample covariance
-//! of the observed variables is the principal sub-matrix of the sample
-//! covariance, so the exact results hold for the sub-vector as they do for
-//! the whole. For the other estimators the sub-vector's law is as
-//! approximate as the full one, and a little more: a shrinkage target
-//! computed from all `p` variables, an MCD subset size or simulated Wishart
-//! degrees of freedom chosen for `p`, and an EM fit (approximate already)
-//! are reused for `p_o` variables. A batch factors `Σ_oo` once per pattern
-//! of empty cells.
-//!
-//! A distance on fewer variables has less power: a row whose unusual value
-//! sits in an empty cell cannot be flagged for it. The output says how many
-//! variables each row had; read flags of rows with few observed variables
-//! with that in mind.
+//! Rows with empty cells, scored on their observed coordinates (see
+//! [`DistanceModel::score_observed`]).
 
 use super::DistanceModel;
 use crate::calibration::{check_probability, Reference, RowOrigin};
@@ -227,7 +202,7 @@ impl DistanceModel {
     }
 
     /// Scores one row whose empty cells are NaN, on its observed variables
-    /// (see the [module documentation](self)). A complete row scores as in
+    /// (see [`score_observed`](Self::score_observed)). A complete row scores as in
     /// [`score_row`](Self::score_row).
     ///
     /// # Errors
@@ -269,6 +244,32 @@ impl DistanceModel {
     /// Squared distances and p-values of a batch whose empty cells are NaN,
     /// each row on its observed variables; one factorization per pattern of
     /// empty cells.
+    ///
+    /// If `x ~ N(μ, Σ)`, the sub-vector `x_o` of any set `o` of its variables
+    /// is `N(μ_o, Σ_oo)`: the marginal of a multivariate normal is normal, with
+    /// the matching sub-vector and principal sub-matrix. So a row with empty
+    /// cells (NaN) gets the squared distance
+    ///
+    /// ```text
+    /// d²_o = (x_o − μ_o)ᵀ Σ_oo⁻¹ (x_o − μ_o),
+    /// ```
+    ///
+    /// referred to the model's law with `p_o = |o|` variables (χ²(p_o), or the
+    /// F or Beta law with `p_o` and the same `n`). The laws stay exact for a
+    /// classical fit on complete rows (either divisor): the sample covariance
+    /// of the observed variables is the principal sub-matrix of the sample
+    /// covariance, so the exact results hold for the sub-vector as they do for
+    /// the whole. For the other estimators the sub-vector's law is as
+    /// approximate as the full one, and a little more: a shrinkage target
+    /// computed from all `p` variables, an MCD subset size or simulated Wishart
+    /// degrees of freedom chosen for `p`, and an EM fit (approximate already)
+    /// are reused for `p_o` variables. A batch factors `Σ_oo` once per pattern
+    /// of empty cells.
+    ///
+    /// A distance on fewer variables has less power: a row whose unusual value
+    /// sits in an empty cell cannot be flagged for it. The output says how many
+    /// variables each row had; read flags of rows with few observed variables
+    /// with that in mind.
     ///
     /// # Errors
     /// [`Error::ShapeMismatch`]; [`Error::NonFinite`] naming the row and
