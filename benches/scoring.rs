@@ -41,6 +41,34 @@ fn bench_batch(c: &mut Criterion) {
     }
     score.finish();
 
+    // Rows per second from f64 and from f32 input (half the bytes), same
+    // rows and model, into the same caller-owned buffer.
+    let mut single = c.benchmark_group("score_batch_f32");
+    single
+        .sample_size(20)
+        .measurement_time(Duration::from_secs(6));
+    let (n, p) = SIZES[0];
+    let x = correlated_rows(n, p, 7);
+    let x32 = x.mapv(|v| v as f32);
+    let model = DistanceModel::fit(x.view()).expect("fit");
+    let mut out = vec![0.0; n];
+    single.throughput(Throughput::Elements(n as u64));
+    single.bench_function(format!("f64/{n}x{p}"), |b| {
+        b.iter(|| {
+            model
+                .squared_distances_into(x.view(), &mut out)
+                .expect("score")
+        })
+    });
+    single.bench_function(format!("f32/{n}x{p}"), |b| {
+        b.iter(|| {
+            model
+                .squared_distances_into(x32.view(), &mut out)
+                .expect("score")
+        })
+    });
+    single.finish();
+
     let mut pv = c.benchmark_group("score_with_p_values");
     pv.sample_size(10).measurement_time(Duration::from_secs(8));
     let (n, p) = SIZES[0];

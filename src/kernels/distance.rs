@@ -212,13 +212,39 @@ fn block_fixed<const P: usize, const FMA: bool>(
     let Some(data) = x.as_slice() else {
         return false;
     };
+    let n = x.nrows();
+    let full = fixed_groups::<P, FMA, f64>(w, mu, data, n, out);
+    if full < n {
+        block_body::<FMA>(
+            w,
+            mu,
+            false,
+            x.slice(ndarray::s![full.., ..]),
+            &mut out[full..],
+            buf,
+        );
+    }
+    true
+}
+
+/// The whole groups of [`LANES`] rows of a row-major block `data` (`n`
+/// rows of `P` values, `f64` or `f32`, each value converted to `f64` before
+/// centring, exactly), written to `out`; returns the number of rows done
+/// (`n` rounded down to a multiple of [`LANES`]).
+#[inline(always)]
+fn fixed_groups<const P: usize, const FMA: bool, T: Copy + Into<f64>>(
+    w: &[f64],
+    mu: &[f64],
+    data: &[T],
+    n: usize,
+    out: &mut [f64],
+) -> usize {
     let mut wm = [[0.0f64; P]; P];
     for (i, row) in wm.iter_mut().enumerate() {
         row[..=i].copy_from_slice(&w[i * P..i * P + i + 1]);
     }
     let mut m = [0.0f64; P];
     m.copy_from_slice(mu);
-    let n = x.nrows();
     let full = n - n % LANES;
     for (group, o) in data[..full * P]
         .chunks_exact(LANES * P)
@@ -227,7 +253,7 @@ fn block_fixed<const P: usize, const FMA: bool>(
         let mut c = [[0.0f64; LANES]; P];
         for (r, row) in group.chunks_exact(P).enumerate() {
             for j in 0..P {
-                c[j][r] = row[j] - m[j];
+                c[j][r] = row[j].into() - m[j];
             }
         }
         let mut d2 = [0.0f64; LANES];
@@ -244,17 +270,71 @@ fn block_fixed<const P: usize, const FMA: bool>(
         }
         o.copy_from_slice(&d2);
     }
-    if full < n {
-        block_body::<FMA>(
-            w,
-            mu,
-            false,
-            x.slice(ndarray::s![full.., ..]),
-            &mut out[full..],
-            buf,
-        );
+    full
+}
+
+/// The whole groups of a row-major `f32` block at `p = 2..8`, read without
+/// widening the block first; returns the rows done (0 when `p` is outside
+/// that range).
+#[inline(always)]
+fn fixed_groups_f32<const FMA: bool>(
+    w: &[f64],
+    mu: &[f64],
+    data: &[f32],
+    n: usize,
+    out: &mut [f64],
+) -> usize {
+    match mu.len() {
+        2 => fixed_groups::<2, FMA, f32>(w, mu, data, n, out),
+        3 => fixed_groups::<3, FMA, f32>(w, mu, data, n, out),
+        4 => fixed_groups::<4, FMA, f32>(w, mu, data, n, out),
+        5 => fixed_groups::<5, FMA, f32>(w, mu, data, n, out),
+        6 => fixed_groups::<6, FMA, f32>(w, mu, data, n, out),
+        7 => fixed_groups::<7, FMA, f32>(w, mu, data, n, out),
+        8 => fixed_groups::<8, FMA, f32>(w, mu, data, n, out),
+        _ => 0,
     }
-    true
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx512f")]
+fn fixed_groups_f32_avx512(
+    w: &[f64],
+    mu: &[f64],
+    data: &[f32],
+    n: usize,
+    out: &mut [f64],
+) -> usize {
+    fixed_groups_f32::<true>(w, mu, data, n, out)
+}
+
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,fma")]
+fn fixed_groups_f32_avx2(w: &[f64], mu: &[f64], data: &[f32], n: usize, out: &mut [f64]) -> usize {
+    fixed_groups_f32::<true>(w, mu, data, n, out)
+}
+
+/// [`fixed_groups_f32`] with the widest vectors the CPU has, as
+/// [`block_dispatch`] chooses them for `f64` rows.
+fn fixed_groups_f32_dispatch(
+    w: &[f64],
+    mu: &[f64],
+    data: &[f32],
+    n: usize,
+    out: &mut [f64],
+) -> usize {
+    #[cfg(target_arch = "x86_64")]
+    {
+        if has_avx512() {
+            // SAFETY: the CPU supports AVX-512F and FMA (checked at run time).
+            return unsafe { fixed_groups_f32_avx512(w, mu, data, n, out) };
+        }
+        if has_avx2_fma() {
+            // SAFETY: the CPU supports AVX2 and FMA (checked at run time).
+            return unsafe { fixed_groups_f32_avx2(w, mu, data, n, out) };
+        }
+    }
+    fixed_groups_f32::<false>(w, mu, data, n, out)
 }
 
 /// The batch block kernel, with the small dimensions specialized.
@@ -427,10 +507,25 @@ pub(crate) fn batch_squared_distances_f32(
         out,
         |start, chunk, (buf, wide): &mut (Vec<[f64; LANES]>, Vec<f64>)| {
             let rows = x.slice(ndarray::s![start..start + chunk.len(), ..]);
+            // Small dimensions, row-major: convert while loading, in the
+            // fixed-dimension kernel (same operations as on widened rows).
+            let done = match rows.as_slice() {
+                Some(data) if !diagonal => {
+                    fixed_groups_f32_dispatch(w, mu, data, chunk.len(), chunk)
+                }
+                _ => 0,
+            };
+            let rest = rows.slice(ndarray::s![done.., ..]);
+            if rest.nrows() == 0 {
+                return;
+            }
             wide.clear();
-            wide.extend(rows.iter().map(|&v| f64::from(v)));
-            let view = crate::data::matrix_view(wide, chunk.len(), p);
-            block_dispatch(w, mu, diagonal, view, chunk, buf);
+            match rest.as_slice() {
+                Some(s) => wide.extend(s.iter().map(|&v| f64::from(v))),
+                None => wide.extend(rest.iter().map(|&v| f64::from(v))),
+            }
+            let view = crate::data::matrix_view(wide, rest.nrows(), p);
+            block_dispatch(w, mu, diagonal, view, &mut chunk[done..], buf);
         },
     );
     first_non_finite(x, bad)

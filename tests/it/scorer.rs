@@ -72,6 +72,9 @@ fn every_input_shape_gives_the_same_distances() {
             .unwrap(),
         want
     );
+    // A row count that leaves a partial group of eight in the last task.
+    let odd = narrow.slice(ndarray::s![..4997, ..]);
+    assert_eq!(model.squared_distances(odd).unwrap(), want[..4997]);
     let mut column_major = Array2::<f32>::zeros((5000, 6).f());
     column_major.assign(&narrow);
     assert_eq!(model.squared_distances(column_major.view()).unwrap(), want);
