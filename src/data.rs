@@ -157,6 +157,15 @@ pub(crate) fn check_row(values: &[f64], p: usize, row: usize) -> Result<()> {
     check_row_finite(values, row)
 }
 
+/// The error for a row whose every cell is empty (NaN), where empty cells
+/// are read as missing.
+pub(crate) fn no_observed_value(row: usize) -> Error {
+    Error::invalid(
+        "row",
+        format!("row {row} has no observed value (every cell is empty); drop it"),
+    )
+}
+
 /// A row must have `p` values.
 pub(crate) fn check_length(values: &[f64], p: usize) -> Result<()> {
     if values.len() != p {

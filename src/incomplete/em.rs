@@ -220,10 +220,7 @@ pub fn expectation_maximization(rows: ArrayView2<'_, f64>, options: &EmOptions) 
             any = true;
         }
         if !any {
-            return Err(Error::invalid(
-                "row",
-                format!("row {i} has no observed value (every cell is empty); drop it"),
-            ));
+            return Err(crate::data::no_observed_value(i));
         }
     }
     if let Some((j, &k)) = count.iter().enumerate().find(|(_, &k)| k <= p) {

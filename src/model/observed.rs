@@ -118,11 +118,20 @@ struct Pattern {
 impl Pattern {
     /// The observed cells of `x`, centred at the sub-location.
     fn centred(&self, x: impl Fn(usize) -> f64) -> Vec<f64> {
-        self.columns
-            .iter()
-            .zip(&self.location)
-            .map(|(&j, &m)| x(j) - m)
-            .collect()
+        let mut c = Vec::with_capacity(self.columns.len());
+        self.centred_into(x, &mut c);
+        c
+    }
+
+    /// As [`centred`](Self::centred), into a reused buffer.
+    fn centred_into(&self, x: impl Fn(usize) -> f64, c: &mut Vec<f64>) {
+        c.clear();
+        c.extend(
+            self.columns
+                .iter()
+                .zip(&self.location)
+                .map(|(&j, &m)| x(j) - m),
+        );
     }
 }
 
@@ -144,10 +153,7 @@ fn observed_columns(x: &[f64], row: usize) -> Result<Vec<usize>> {
         columns.push(j);
     }
     if columns.is_empty() {
-        return Err(Error::invalid(
-            "row",
-            format!("row {row} has no observed value (every cell is empty); drop it"),
-        ));
+        return Err(crate::data::no_observed_value(row));
     }
     Ok(columns)
 }
@@ -301,13 +307,15 @@ impl DistanceModel {
         let p = self.dim();
         let words = p.div_ceil(64);
         // Pass 1: the pattern of each row (bit j set = column j observed).
-        let masks: Vec<Vec<u64>> = (0..n)
-            .into_par_iter()
-            .map(|i| {
-                let row = x.row(i);
-                let mut mask = vec![0u64; words];
+        // Pass 1: the pattern of each row (bit j set = column j observed),
+        // `words` per row in one flat buffer.
+        let mut masks = vec![0u64; n * words];
+        masks
+            .par_chunks_mut(words)
+            .enumerate()
+            .try_for_each(|(i, mask)| -> Result<()> {
                 let mut any = false;
-                for (j, &v) in row.iter().enumerate() {
+                for (j, &v) in x.row(i).iter().enumerate() {
                     if v.is_nan() {
                         continue;
                     }
@@ -321,23 +329,20 @@ impl DistanceModel {
                     mask[j / 64] |= 1 << (j % 64);
                     any = true;
                 }
-                if !any {
-                    return Err(Error::invalid(
-                        "row",
-                        format!("row {i} has no observed value (every cell is empty); drop it"),
-                    ));
+                if any {
+                    Ok(())
+                } else {
+                    Err(crate::data::no_observed_value(i))
                 }
-                Ok(mask)
-            })
-            .collect::<Result<_>>()?;
+            })?;
         // One factorization per pattern.
         let mut index: HashMap<&[u64], usize> = HashMap::new();
         let mut distinct: Vec<&[u64]> = Vec::new();
         let of_row: Vec<usize> = masks
-            .iter()
+            .chunks_exact(words)
             .map(|m| {
-                *index.entry(m.as_slice()).or_insert_with(|| {
-                    distinct.push(m.as_slice());
+                *index.entry(m).or_insert_with(|| {
+                    distinct.push(m);
                     distinct.len() - 1
                 })
             })
@@ -357,13 +362,13 @@ impl DistanceModel {
             .zip(p_values.par_iter_mut())
             .zip(observed.par_iter_mut())
             .enumerate()
-            .try_for_each(|(i, ((d, pv), o))| -> Result<()> {
+            .try_for_each_init(Vec::new, |c, (i, ((d, pv), o))| -> Result<()> {
                 let pattern = &patterns[of_row[i]];
                 let row = x.row(i);
-                let c = pattern.centred(|j| row[j]);
+                pattern.centred_into(|j| row[j], c);
                 *d = pattern
                     .scatter
-                    .squared_norm(&c)
+                    .squared_norm(c)
                     .map_err(|_| Error::Overflow { row: i })?;
                 *pv = pattern.reference.p_value(*d);
                 *o = pattern.columns.len();
