@@ -145,6 +145,8 @@ const _: () = {
     shared::<drift::ForgettingModel>();
     shared::<drift::SlidingWindowModel>();
     shared::<control_chart::ControlChart>();
+    shared::<control_chart::ComponentChart>();
+    shared::<control_chart::ComponentModel>();
     shared::<model_file::ModelFile>();
     shared::<calibration::EmpiricalReference>();
     shared::<held_out::CalibrationCheck>();

@@ -73,6 +73,7 @@
 //!   T² charts).
 
 mod chart;
+mod components;
 pub mod decomposition;
 mod diagnosis;
 mod false_alarm;
@@ -82,6 +83,11 @@ mod settings;
 pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
+pub use components::{
+    ComponentChart, ComponentContributions, ComponentCount, ComponentModel, ComponentOptions,
+    ComponentPoint, ComponentRound, ComponentStatistics, ResidualLaw, ResidualLimitMethod,
+    VariableScaling,
+};
 pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;
 pub use limits::ControlLimit;

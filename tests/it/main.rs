@@ -10,6 +10,7 @@ mod common;
 
 mod classification;
 mod classification_properties;
+mod components;
 mod control_chart;
 mod demo;
 mod drift;
