@@ -78,15 +78,16 @@ pub mod decomposition;
 mod diagnosis;
 mod false_alarm;
 mod limits;
+pub(crate) mod panels;
 mod point;
 mod settings;
 pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
 pub use components::{
-    ComponentChart, ComponentContributions, ComponentCount, ComponentModel, ComponentOptions,
-    ComponentPoint, ComponentRound, ComponentStatistics, ResidualLaw, ResidualLimitMethod,
-    VariableScaling,
+    component_chart_svg, ComponentChart, ComponentContributions, ComponentCount, ComponentModel,
+    ComponentOptions, ComponentPoint, ComponentRound, ComponentStatistics, ResidualLaw,
+    ResidualLimitMethod, VariableScaling,
 };
 pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;

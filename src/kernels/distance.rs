@@ -420,7 +420,7 @@ fn block_dispatch(
 
 #[cfg(target_arch = "x86_64")]
 #[inline]
-fn has_avx512() -> bool {
+pub(crate) fn has_avx512() -> bool {
     std::arch::is_x86_feature_detected!("avx512f") && std::arch::is_x86_feature_detected!("fma")
 }
 

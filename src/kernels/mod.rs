@@ -4,6 +4,7 @@
 //! import nothing from the rest of the crate except the error type, so every
 //! layer above (estimation, the model, the analyses) can use them.
 
+pub(crate) mod components;
 pub(crate) mod distance;
 pub(crate) mod exp;
 pub(crate) mod gram;

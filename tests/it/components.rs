@@ -113,15 +113,15 @@ fn t_squared_on_every_component_is_the_full_hotelling_t_squared() {
             .residual_law(ResidualLimitMethod::default())
             .unwrap()
             .is_none());
-        for i in 0..new.nrows() {
-            let st = model.statistics(&new.row(i).to_vec()).unwrap();
+        for (i, (row, &d2i)) in new.outer_iter().zip(d2.iter()).enumerate() {
+            let st = model.statistics(&row.to_vec()).unwrap();
             assert!(
-                rel(st.t_squared, d2[i]) < 1e-8,
+                rel(st.t_squared, d2i) < 1e-8,
                 "{scaling:?} row {i}: {} vs {}",
                 st.t_squared,
-                d2[i]
+                d2i
             );
-            assert!(st.residual < 1e-9 * d2[i].max(1.0), "Q = {}", st.residual);
+            assert!(st.residual < 1e-9 * d2i.max(1.0), "Q = {}", st.residual);
         }
     }
 }
@@ -473,17 +473,62 @@ fn charts_round_trip_through_json_and_refuse_damaged_files() {
 
 #[test]
 fn batch_statistics_agree_with_single_rows_across_blocks() {
-    let x = two_factor_rows(1000, 12);
+    // More rows than one parallel block (2048) and not a multiple of the
+    // four rows the kernel scores together.
+    let n = 5003;
+    let x = two_factor_rows(n, 12);
     let model = ComponentModel::fit(x.view(), fixed(3), VariableScaling::UnitVariance).unwrap();
-    let mut t2 = vec![0.0; 1000];
-    let mut q = vec![0.0; 1000];
-    // A column-major copy exercises another layout.
+    // A column-major copy exercises the copying path of the kernel.
     let fortran = x.t().as_standard_layout().into_owned().reversed_axes();
-    model
-        .statistics_into(fortran.view(), &mut t2, &mut q)
-        .unwrap();
-    for i in (0..1000).step_by(37) {
-        let one = model.statistics(&x.row(i).to_vec()).unwrap();
-        assert!(rel(t2[i], one.t_squared) < 1e-11 && rel(q[i], one.residual) < 1e-9);
+    for layout in [x.view(), fortran.view()] {
+        let mut t2 = vec![0.0; n];
+        let mut q = vec![0.0; n];
+        model.statistics_into(layout, &mut t2, &mut q).unwrap();
+        for i in (0..n).step_by(37).chain([n - 3, n - 2, n - 1]) {
+            let one = model.statistics(&x.row(i).to_vec()).unwrap();
+            assert!(
+                rel(t2[i], one.t_squared) < 1e-11 && rel(q[i], one.residual) < 1e-9,
+                "row {i}: {} {} vs {:?}",
+                t2[i],
+                q[i],
+                one
+            );
+        }
+    }
+}
+
+#[test]
+fn tiny_residuals_keep_their_relative_accuracy() {
+    // Rows in the span of the retained components plus a residual 1e-6
+    // times their length: `‖c‖² − ‖t‖²` would cancel to about 1e-4
+    // relative accuracy, so the batch kernel must form the residual
+    // explicitly. The single-row path always does (an independent
+    // computation of the same `Q`). Rows with large residuals in the same
+    // batch take the shortcut.
+    let reference = two_factor_rows(2000, 31);
+    let model = ComponentModel::fit(reference.view(), fixed(2), VariableScaling::Centred).unwrap();
+    let p = model.dim();
+    let loadings = model.loadings();
+    let mut rows = Array2::<f64>::zeros((64, p));
+    for (i, mut row) in rows.outer_iter_mut().enumerate() {
+        let (s0, s1) = (1.0 + i as f64 * 0.1, -2.0 + i as f64 * 0.05);
+        let off = if i % 2 == 0 { 1e-6 } else { 0.5 };
+        for j in 0..p {
+            let along = s0 * loadings[[j, 0]] + s1 * loadings[[j, 1]];
+            let across = off * if (i + j) % 3 == 0 { 1.0 } else { -0.5 };
+            row[j] = model.location()[j] + along + across;
+        }
+    }
+    let mut t2 = vec![0.0; 64];
+    let mut q = vec![0.0; 64];
+    model.statistics_into(rows.view(), &mut t2, &mut q).unwrap();
+    for (i, (row, &qi)) in rows.outer_iter().zip(q.iter()).enumerate() {
+        let one = model.statistics(&row.to_vec()).unwrap();
+        assert!(one.residual > 0.0);
+        assert!(
+            rel(qi, one.residual) < 1e-6,
+            "row {i}: Q {qi} vs {}",
+            one.residual
+        );
     }
 }

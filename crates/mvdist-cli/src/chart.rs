@@ -22,8 +22,42 @@ pub enum StartReference {
     Chi2,
 }
 
+#[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
+pub enum ChartKind {
+    /// Hotelling T² on every variable (individuals or subgroups).
+    T2,
+    /// T² on principal components with the squared prediction error Q.
+    Components,
+}
+
+#[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
+pub enum ResidualLimitArg {
+    /// Jackson–Mudholkar normal approximation (falls back to the scaled chi-square where it is undefined).
+    JacksonMudholkar,
+    /// Box's scaled chi-square g·χ²_h.
+    ScaledChiSquare,
+}
+
 #[derive(clap::Args)]
 pub struct ChartArgs {
+    /// What is charted.
+    #[arg(long, value_enum, default_value = "t2")]
+    pub kind: ChartKind,
+    /// With --kind components: the number of components to keep.
+    #[arg(long, conflicts_with = "explained")]
+    pub components: Option<usize>,
+    /// With --kind components: keep the fewest components explaining this fraction of the variance [default: 0.9].
+    #[arg(long)]
+    pub explained: Option<f64>,
+    /// With --kind components: centre the variables only, instead of scaling each to unit variance.
+    #[arg(long)]
+    pub no_scaling: bool,
+    /// With --kind components: how the limit of Q is computed.
+    #[arg(long, value_enum, default_value = "jackson-mudholkar")]
+    pub residual_limit: ResidualLimitArg,
+    /// With --kind components: how many top contributing variables to list for each signal.
+    #[arg(long, default_value_t = 3)]
+    pub top: usize,
     /// CSV file of historical rows (Phase I), in time order.
     pub data: PathBuf,
     /// CSV file of new rows to monitor (Phase II), with the same variables.
@@ -90,6 +124,14 @@ fn status_text(s: &PointStatus) -> String {
 
 pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let rate = rate(args)?;
+    if args.kind == ChartKind::Components {
+        return crate::chart_components::run(args, rate);
+    }
+    if args.components.is_some() || args.explained.is_some() || args.no_scaling {
+        return Err(CliError(
+            "--components, --explained and --no-scaling apply to --kind components".into(),
+        ));
+    }
     if args.subgroup_size.is_some() && args.skip_incomplete {
         return Err(CliError(
             "--skip-incomplete cannot be used with --subgroup-size: leaving out a row would shift the subgroups".into(),
@@ -339,10 +381,21 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             );
         }
     }
-    if signals.len() > 12 {
+    finish_report(
+        signals.len(),
+        args,
+        "the limits assume independent, multivariate normal in-control data",
+    );
+    Ok(())
+}
+
+/// The end of every chart report: how many signals were not listed, the
+/// files written, and the caution.
+pub(crate) fn finish_report(signals: usize, args: &ChartArgs, assumption: &str) {
+    if signals > 12 {
         println!(
             "  … {} more signal(s) in {}",
-            signals.len() - 12,
+            signals - 12,
             args.out.display()
         );
     }
@@ -353,6 +406,5 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             .as_ref()
             .map_or_else(String::new, |s| format!(" and {}", s.display()))
     );
-    println!("note: the limits assume independent, multivariate normal in-control data; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
-    Ok(())
+    println!("note: {assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
 }

@@ -14,6 +14,7 @@
 //! is left behind.
 
 mod chart;
+mod chart_components;
 mod classify;
 mod compare_means;
 mod fit;

@@ -1508,3 +1508,117 @@ fn normality_report_checks_the_f_cutoffs_on_held_out_rows() {
     assert_eq!(json["calibration"]["held_out_rows"], 75);
     assert_eq!(json["calibration"]["levels"].as_array().unwrap().len(), 3);
 }
+
+/// The breast cancer measurements (open dataset, from the scikit-learn
+/// fixture), rows `range`, as CSV with columns v1..v30.
+fn breast_cancer_csv(
+    dir: &Path,
+    name: &str,
+    range: std::ops::Range<usize>,
+) -> (PathBuf, ndarray::Array2<f64>) {
+    let f = common::fixture("component_monitoring.json");
+    let x = common::matrix(&f["data"])
+        .slice(ndarray::s![range, ..])
+        .to_owned();
+    let mut text = (1..=30)
+        .map(|j| format!("v{j}"))
+        .collect::<Vec<_>>()
+        .join(",")
+        + "\n";
+    for row in x.outer_iter() {
+        text += &row
+            .iter()
+            .map(|v| format!("{v}"))
+            .collect::<Vec<_>>()
+            .join(",");
+        text += "\n";
+    }
+    (write(dir, name, &text), x)
+}
+
+#[test]
+fn component_chart_writes_both_statistics_that_match_the_library() {
+    use mvdist::control_chart::{ComponentChart, ComponentCount, ComponentOptions, FalseAlarmRate};
+    let dir = TempDir::new().unwrap();
+    let (a, xa) = breast_cancer_csv(dir.path(), "history.csv", 0..400);
+    let (b, xb) = breast_cancer_csv(dir.path(), "new.csv", 400..569);
+    let out = dir.path().join("points.csv");
+    let svg = dir.path().join("chart.svg");
+    mvdist()
+        .arg("chart")
+        .arg(&a)
+        .arg("--new")
+        .arg(&b)
+        .arg("--out")
+        .arg(&out)
+        .arg("--svg")
+        .arg(&svg)
+        .args([
+            "--kind",
+            "components",
+            "--components",
+            "5",
+            "--alpha",
+            "0.01",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains(
+            "Phase I: 400 rows × 30 variables; 5 components",
+        ))
+        .stdout(predicate::str::contains("Phase II: 169 new rows"))
+        .stdout(predicate::str::contains("prompt to investigate"));
+    let options = ComponentOptions::default()
+        .with_components(ComponentCount::Fixed { components: 5 })
+        .with_false_alarm(FalseAlarmRate::per_point(0.01).unwrap());
+    let chart = ComponentChart::phase_one(xa.view(), &options).unwrap();
+    let new = chart.monitor(xb.view()).unwrap();
+    let (header, rows) = read_points(&out);
+    assert_eq!(
+        header.join(","),
+        "phase,point,status,t2,t2_limit,t2_p_value,q,q_limit,q_p_value,t2_signal,q_signal,signal,top_t2_variables,top_q_variables"
+    );
+    assert_eq!(rows.len(), 569);
+    for (r, pt) in rows.iter().zip(chart.phase_one_points().iter().chain(&new)) {
+        assert_eq!(r[3].parse::<f64>().unwrap(), pt.t_squared);
+        assert_eq!(r[6].parse::<f64>().unwrap(), pt.residual);
+        assert_eq!(r[7].parse::<f64>().unwrap(), pt.residual_limit.unwrap());
+        assert_eq!(r[11] == "true", pt.signal());
+        assert_eq!(r[13].is_empty(), !pt.signal());
+        if let Some(d) = &pt.diagnosis {
+            let top = d.largest_residual(1)[0];
+            assert!(r[13].starts_with(&format!("v{} (", top + 1)), "{}", r[13]);
+        }
+    }
+    let picture = std::fs::read_to_string(&svg).unwrap();
+    assert!(picture.starts_with("<svg") && picture.contains("Q (squared prediction error)"));
+    assert!(picture.contains("T² on 5 components") && picture.contains("Phase II"));
+
+    // Errors name the problem and leave no file.
+    let out2 = dir.path().join("bad.csv");
+    for (extra, message) in [
+        (
+            vec!["--kind", "components", "--components", "0"],
+            "components",
+        ),
+        (
+            vec!["--kind", "components", "--explained", "1.5"],
+            "explained variance fraction",
+        ),
+        (
+            vec!["--kind", "components", "--subgroup-size", "5"],
+            "do not apply",
+        ),
+        (vec!["--components", "3"], "apply to --kind components"),
+    ] {
+        let mut args: Vec<std::ffi::OsString> = vec![
+            "chart".into(),
+            a.clone().into(),
+            "--out".into(),
+            out2.clone().into(),
+        ];
+        args.extend(extra.iter().map(std::ffi::OsString::from));
+        let refs: Vec<&std::ffi::OsStr> = args.iter().map(|s| s.as_os_str()).collect();
+        fails(&refs, &out2, message);
+    }
+}

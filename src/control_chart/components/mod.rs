@@ -33,9 +33,11 @@
 mod chart;
 mod model;
 mod residual;
+mod svg;
 
 pub use chart::{ComponentChart, ComponentOptions, ComponentPoint, ComponentRound};
 pub use model::{
     ComponentContributions, ComponentCount, ComponentModel, ComponentStatistics, VariableScaling,
 };
 pub use residual::{ResidualLaw, ResidualLimitMethod};
+pub use svg::component_chart_svg;
