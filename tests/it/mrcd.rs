@@ -396,6 +396,7 @@ fn bad_input_gives_typed_errors() {
         o.clone().with_support_fraction(f64::NAN),
         o.clone().with_condition_bound(1.0),
         o.clone().with_condition_bound(f64::INFINITY),
+        o.clone().with_max_concentration_steps(0),
     ] {
         assert!(matches!(
             mrcd(&x, &bad_options),
@@ -469,7 +470,9 @@ fn screen_false_flag_share_simulation() {
         for alpha in [0.05, 0.01] {
             let share = false_flag_share(200, n, p, alpha);
             eprintln!("n {n} p {p} α {alpha}: {share:.4}");
-            assert!(share > 0.3 * alpha && share < 2.0 * alpha, "{share}");
+            // Measured in release mode: 0.0435/0.0123 (40 × 80), 0.0611/0.0152
+            // (60 × 30), 0.0579/0.0150 (100 × 10) at α = 0.05/0.01.
+            assert!(share > 0.5 * alpha && share < 1.75 * alpha, "{share}");
         }
     }
 }
@@ -528,4 +531,29 @@ fn usable_as_a_distance_model() {
     let text = serde_json::to_string(&fit).unwrap();
     let back: mvdist::robust::RegularizedMcdFit = serde_json::from_str(&text).unwrap();
     assert_eq!(back, fit);
+}
+
+/// The breakdown check of `resists_twenty_percent_contamination_at_p_twice_n`
+/// over many seeds and two shapes (p = 2n): no planted row in the subset,
+/// and the variance along the shift within a factor 3 of the truth.
+#[test]
+#[ignore = "simulation: run in release mode"]
+fn resists_contamination_over_seeds() {
+    for (n, p) in [(30usize, 60usize), (40, 80)] {
+        let k = n / 5;
+        let u = shift_direction(p);
+        let along_truth = quadratic(&true_scatter(p, 0.6), &u);
+        let mut worst = 0.0f64;
+        for seed in 0..50u64 {
+            let mut rng = Rng(seed * 7919 + 1);
+            let clean = clean_rows(&mut rng, n, p, 0.6);
+            let dirty = contaminate(&clean, &mut rng, k);
+            let f = mrcd(&dirty, &RegularizedMcdOptions::default()).unwrap();
+            assert!(f.subset().iter().all(|&i| i < n - k), "seed {seed}");
+            let r = quadratic(&f.scatter().matrix().to_owned(), &u) / along_truth;
+            worst = worst.max(r.max(1.0 / r));
+        }
+        eprintln!("n {n} p {p}: worst variance ratio along the shift {worst:.2}");
+        assert!(worst < 3.0, "{worst}");
+    }
 }
