@@ -99,6 +99,21 @@ pub enum FitMethod {
         #[serde(default)]
         wishart_dof: Option<f64>,
     },
+    /// Minimum regularized covariance determinant
+    /// ([`crate::robust::minimum_regularized_covariance_determinant`]): on
+    /// the robustly standardized scale the scatter is
+    /// `ρ I + (1 − ρ) c S_H`.
+    RegularizedMcd {
+        /// The regularization `ρ ∈ [0, 1]` of this scatter (of the
+        /// reweighted rows when `reweighted` is true).
+        regularization: f64,
+        /// The subset size `h`.
+        subset_size: usize,
+        /// The bound `κ` on the condition number of the standardized scatter.
+        condition_bound: f64,
+        /// Whether this is the one-step reweighted estimate.
+        reweighted: bool,
+    },
 }
 
 /// Which MCD estimate a model holds.

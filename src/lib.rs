@@ -139,6 +139,8 @@ const _: () = {
     shared::<Whitener>();
     shared::<MomentAccumulator>();
     shared::<robust::McdFit>();
+    shared::<robust::RegularizedMcdFit>();
+    shared::<robust::RegularizedMcdScreen>();
     shared::<shrinkage::ShrinkageFit>();
     shared::<classification::Classifier<String>>();
     shared::<classification::Classifier<u32>>();

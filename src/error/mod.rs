@@ -76,6 +76,15 @@ pub enum Error {
         /// The constant column.
         column: usize,
     },
+    /// A column's robust scale is zero: at least about half of its values
+    /// are tied, so a robust fit that standardizes each variable by a
+    /// high-breakdown scale (the Qn of
+    /// [`crate::robust::minimum_regularized_covariance_determinant`]) cannot
+    /// use it.
+    ZeroRobustScale {
+        /// The column.
+        column: usize,
+    },
     /// A column is (numerically) a linear combination of earlier ones: its
     /// variance left after regressing it on the earlier columns is a
     /// negligible fraction of its own variance.
@@ -192,6 +201,8 @@ pub enum ErrorKind {
     TooFewRows,
     /// [`Error::ZeroVariance`].
     ZeroVariance,
+    /// [`Error::ZeroRobustScale`].
+    ZeroRobustScale,
     /// [`Error::Collinear`].
     Collinear,
     /// [`Error::NotPositiveDefinite`].
@@ -230,6 +241,7 @@ impl ErrorKind {
             ErrorKind::ShapeMismatch => "shape_mismatch",
             ErrorKind::TooFewRows => "too_few_rows",
             ErrorKind::ZeroVariance => "zero_variance",
+            ErrorKind::ZeroRobustScale => "zero_robust_scale",
             ErrorKind::Collinear => "collinear",
             ErrorKind::NotPositiveDefinite => "not_positive_definite",
             ErrorKind::NotSymmetric => "not_symmetric",
@@ -267,6 +279,7 @@ impl Error {
             Error::ShapeMismatch { .. } => ErrorKind::ShapeMismatch,
             Error::TooFewRows { .. } => ErrorKind::TooFewRows,
             Error::ZeroVariance { .. } => ErrorKind::ZeroVariance,
+            Error::ZeroRobustScale { .. } => ErrorKind::ZeroRobustScale,
             Error::Collinear { .. } => ErrorKind::Collinear,
             Error::NotPositiveDefinite { .. } => ErrorKind::NotPositiveDefinite,
             Error::NotSymmetric { .. } => ErrorKind::NotSymmetric,
@@ -331,6 +344,10 @@ impl fmt::Display for Error {
             Error::ZeroVariance { column } => write!(
                 f,
                 "column {column} has zero variance (it is constant); drop the column"
+            ),
+            Error::ZeroRobustScale { column } => write!(
+                f,
+                "column {column} has a robust scale (Qn) of zero: at least about half of its values are tied; drop the column or record it with more resolution"
             ),
             Error::Collinear {
                 column,

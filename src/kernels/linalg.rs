@@ -105,3 +105,41 @@ pub(crate) fn product(dst: &mut [f64], a: &[f64], b: &[f64], m: usize, k: usize,
         Par::Seq,
     );
 }
+
+/// `dst = a · bᵀ` for row-major matrices `a` (`m × k`) and `b` (`n × k`).
+pub(crate) fn product_transposed(
+    dst: &mut [f64],
+    a: &[f64],
+    b: &[f64],
+    m: usize,
+    k: usize,
+    n: usize,
+) {
+    matmul(
+        view_mut(dst, m, n),
+        Accum::Replace,
+        view(a, m, k),
+        view(b, n, k).transpose(),
+        1.0,
+        Par::Seq,
+    );
+}
+
+/// `dst = aᵀ · b` for row-major matrices `a` (`k × m`) and `b` (`k × n`).
+pub(crate) fn transposed_product(
+    dst: &mut [f64],
+    a: &[f64],
+    b: &[f64],
+    k: usize,
+    m: usize,
+    n: usize,
+) {
+    matmul(
+        view_mut(dst, m, n),
+        Accum::Replace,
+        view(a, k, m).transpose(),
+        view(b, k, n),
+        1.0,
+        Par::Seq,
+    );
+}

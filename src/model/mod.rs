@@ -10,7 +10,7 @@ use crate::estimate::{Estimate, FitMethod, McdStage, OasFormula, ShrinkageTarget
 use crate::explain::{contributions, ContributionOrder, Contributions};
 use crate::kernels::distance as kernel;
 use crate::moments::{Divisor, MomentAccumulator};
-use crate::robust::{McdFit, McdOptions};
+use crate::robust::{McdFit, McdOptions, RegularizedMcdFit, RegularizedMcdOptions};
 use crate::scatter::Scatter;
 use crate::shrinkage::ShrinkageFit;
 use crate::whitening::{Whitener, WhiteningKind};
@@ -379,6 +379,32 @@ impl DistanceModel {
             .with_f64(|rows| crate::robust::minimum_covariance_determinant(rows, options)?.model())
     }
 
+    /// Fits the minimum regularized covariance determinant estimate (for
+    /// data with about as many or more variables than rows); see
+    /// [`crate::robust::minimum_regularized_covariance_determinant`]. Its
+    /// [`reference`](Self::reference) is χ²(p), an approximation.
+    ///
+    /// # Errors
+    /// As [`crate::robust::minimum_regularized_covariance_determinant`].
+    ///
+    /// # Example
+    /// ```
+    /// use mvdist::{robust::RegularizedMcdOptions, DistanceModel, FitMethod};
+    /// use ndarray::Array2;
+    /// // 12 rows of 15 variables: the classical fit is impossible.
+    /// let rows = Array2::from_shape_fn((12, 15), |(i, j)| ((i * 7 + j * 5) as f64 * 0.9).sin());
+    /// assert!(DistanceModel::fit(rows.view()).is_err());
+    /// let model = DistanceModel::fit_regularized_mcd(rows.view(), &RegularizedMcdOptions::default())?;
+    /// assert!(matches!(model.fit_method(), FitMethod::RegularizedMcd { .. }));
+    /// # Ok::<(), mvdist::Error>(())
+    /// ```
+    pub fn fit_regularized_mcd<'a>(
+        rows: impl Into<Rows<'a>>,
+        options: &RegularizedMcdOptions,
+    ) -> Result<Self> {
+        crate::robust::minimum_regularized_covariance_determinant(rows, options)?.model()
+    }
+
     /// The model of the rows summarized by an accumulator.
     ///
     /// # Errors
@@ -403,8 +429,10 @@ impl DistanceModel {
     /// # Errors
     /// [`Error::ShapeMismatch`] if the location's length differs from the
     /// scatter's dimension; [`Error::NonFinite`] for a non-finite location;
-    /// [`Error::InvalidParameter`] if `sample_size` is 0 or an MCD
-    /// estimator's `wishart_dof` is not valid for [`Reference::reweighted_mcd`].
+    /// [`Error::InvalidParameter`] if `sample_size` is 0, an MCD
+    /// estimator's `wishart_dof` is not valid for [`Reference::reweighted_mcd`],
+    /// or a regularized MCD's regularization is outside `[0, 1]` or its
+    /// condition bound not above 1.
     pub fn from_parts(
         location: Vec<f64>,
         scatter: Scatter,
@@ -428,6 +456,25 @@ impl DistanceModel {
         } = estimator
         {
             Reference::reweighted_mcd(scatter.dim(), m)?;
+        }
+        if let FitMethod::RegularizedMcd {
+            regularization,
+            condition_bound,
+            ..
+        } = estimator
+        {
+            if !(0.0..=1.0).contains(&regularization) {
+                return Err(Error::invalid(
+                    "regularization",
+                    format!("{regularization} is not in [0, 1]"),
+                ));
+            }
+            if !(condition_bound > 1.0) {
+                return Err(Error::invalid(
+                    "condition bound",
+                    format!("{condition_bound} is not above 1"),
+                ));
+            }
         }
         Ok(DistanceModel {
             location,
@@ -617,6 +664,7 @@ impl DistanceModel {
     /// | MCD, reweighted, simulated `m` | scaled F ([`Reference::reweighted_mcd`]) | χ²(p) |
     /// | MCD, reweighted, no `m` (`n > 1000` or no simulation) | χ²(p) (common practice; Rousseeuw and Van Zomeren 1990) | χ²(p) |
     /// | MCD, raw | Hardin–Rocke F ([`Reference::raw_mcd`]) | χ²(p) |
+    /// | regularized MCD (MRCD), raw or reweighted | χ²(p) (approximate; see below) | χ²(p) |
     ///
     /// The F and Beta laws are stated for the unbiased (`n − 1`) covariance;
     /// for a model whose scatter uses the divisor `n` (classical fits with
@@ -624,6 +672,15 @@ impl DistanceModel {
     /// start from that covariance) the reference rescales each squared
     /// distance by `(n − 1)/n` first ([`Reference::with_divisor`]). A
     /// weighted fit with the divisor `n` has no F or Beta reference.
+    ///
+    /// For the MRCD ([`crate::robust::minimum_regularized_covariance_determinant`])
+    /// χ²(p) is the large-sample law of distances from the true parameters
+    /// and nothing more: the regularization pulls the scatter toward the
+    /// standardized identity, and with `p` near or above `n` the estimate
+    /// is far from the truth in many directions, so the tail of its
+    /// distances can be much lighter or heavier than χ²(p). Read its
+    /// p-values as a ranking of rows; for calibrated p-values hold out
+    /// rows ([`crate::held_out`]).
     ///
     /// # Errors
     /// [`Error::TooFewRows`] if the model's sample is too small for that
@@ -653,6 +710,7 @@ impl DistanceModel {
                 Some(m) => Reference::reweighted_mcd(dim, m),
                 None => Reference::chi_square(dim),
             },
+            (FitMethod::RegularizedMcd { .. }, _) => Reference::chi_square(dim),
             (
                 FitMethod::Mcd {
                     stage: McdStage::Raw,
@@ -833,6 +891,25 @@ impl McdFit {
     }
 
     /// The raw estimate as a [`DistanceModel`] (Hardin–Rocke F reference).
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected).
+    pub fn raw_model(&self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.raw_estimate())
+    }
+}
+
+impl RegularizedMcdFit {
+    /// The final estimate (reweighted if reweighting was on) as a
+    /// [`DistanceModel`] (χ²(p) reference, approximate).
+    ///
+    /// # Errors
+    /// As [`DistanceModel::from_parts`] (not expected).
+    pub fn model(&self) -> Result<DistanceModel> {
+        DistanceModel::from_estimate(self.estimate())
+    }
+
+    /// The raw estimate as a [`DistanceModel`].
     ///
     /// # Errors
     /// As [`DistanceModel::from_parts`] (not expected).

@@ -1,4 +1,7 @@
-//! Robust location and scatter: the minimum covariance determinant (MCD).
+//! Robust location and scatter: the minimum covariance determinant (MCD)
+//! and, for data with about as many or more variables than rows, the
+//! minimum regularized covariance determinant (MRCD,
+//! [`minimum_regularized_covariance_determinant`]).
 //!
 //! The sample mean and covariance are pulled toward outliers, which then
 //! hide themselves (masking) and make good rows look bad (swamping). The
@@ -63,6 +66,14 @@
 //! determinant is 0: the fit returns [`Error::ExactFit`] with the
 //! [`Hyperplane`] and its rows instead of a scatter.
 //!
+//! **More variables than rows.** The MCD needs `h > p`. The MRCD (Boudt,
+//! Rousseeuw, Vanduffel and Verdonck 2020) standardizes each column by its
+//! median and [`qn_scale`], and minimizes the determinant of the
+//! regularized subset covariance `ρ I + (1 − ρ) c S_H` instead, with `ρ`
+//! chosen so that its condition number is at most `κ` (default 50); the
+//! scatter is positive definite for any `p`. See
+//! [`minimum_regularized_covariance_determinant`].
+//!
 //! **Caution.** A robust fit shows which rows are far from the bulk of the
 //! data, assuming that bulk is roughly elliptical (normal for the
 //! p-values). A flagged row is evidence for a closer look, not a verdict
@@ -110,12 +121,20 @@ mod consistency;
 mod exchange;
 mod fast_mcd;
 mod hyperplane;
+mod mrcd;
 pub(crate) mod random;
 mod small_sample;
+mod spectrum;
+mod univariate;
 
 pub use crate::error::Hyperplane;
 pub use consistency::consistency_factor;
+pub use mrcd::{
+    minimum_regularized_covariance_determinant, regularized_mcd_screen, RegularizedMcdFit,
+    RegularizedMcdOptions, RegularizedMcdScreen,
+};
 pub use small_sample::SMALL_SAMPLE_MAX_ROWS;
+pub use univariate::qn_scale;
 
 use crate::data::check_finite;
 use crate::distributions::ChiSquared;

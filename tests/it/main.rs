@@ -19,6 +19,7 @@ mod incomplete;
 mod layers;
 mod mean_tests;
 mod model_files;
+mod mrcd;
 mod no_panic;
 mod normality;
 mod normality_calibration;

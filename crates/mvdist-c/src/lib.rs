@@ -128,7 +128,7 @@ fn status_of(e: &Error) -> mvdist_status {
         ErrorKind::TooFewRows | ErrorKind::TooFewGroups | ErrorKind::SmallGroup => {
             MVDIST_TOO_FEW_ROWS
         }
-        ErrorKind::ZeroVariance => MVDIST_ZERO_VARIANCE,
+        ErrorKind::ZeroVariance | ErrorKind::ZeroRobustScale => MVDIST_ZERO_VARIANCE,
         ErrorKind::Collinear => MVDIST_COLLINEAR,
         ErrorKind::NotPositiveDefinite | ErrorKind::NotSymmetric => MVDIST_NOT_POSITIVE_DEFINITE,
         ErrorKind::InvalidParameter | ErrorKind::NotRepresentable => MVDIST_INVALID_PARAMETER,

@@ -6,7 +6,7 @@ use mvdist::held_out::{fit_holding_out, CalibrationCheck, HoldOutOptions};
 use mvdist::incomplete::EmOptions;
 use mvdist::model_file::ModelFile;
 use mvdist::ndarray::ArrayView2;
-use mvdist::robust::McdOptions;
+use mvdist::robust::{McdOptions, RegularizedMcdOptions};
 use mvdist::shrinkage::OasFormula;
 use mvdist::{DistanceModel, Divisor, Error, FitMethod};
 use std::path::{Path, PathBuf};
@@ -21,6 +21,9 @@ pub enum EstimatorChoice {
     Oas,
     /// Reweighted minimum covariance determinant (FastMCD): robust to outlying rows.
     Mcd,
+    /// Minimum regularized covariance determinant (MRCD): robust to outlying
+    /// rows, and works with about as many or more variables than rows.
+    Mrcd,
     /// Maximum likelihood from rows with empty cells (EM algorithm): the only
     /// estimator that reads empty cells as missing rather than stopping.
     Em,
@@ -36,8 +39,9 @@ pub struct FitArgs {
     /// How to estimate location and scatter.
     #[arg(long, value_enum, default_value = "classical")]
     pub estimator: EstimatorChoice,
-    /// With --estimator mcd: fraction of rows in the MCD subset, h = floor(FRACTION·n)
-    /// (default h = floor((n + p + 1)/2), the most robust choice).
+    /// With --estimator mcd or mrcd: fraction of rows in the subset, h = floor(FRACTION·n)
+    /// (mcd default h = floor((n + p + 1)/2), the most robust choice; mrcd default 0.75,
+    /// allowed 0.5 to 1).
     #[arg(long, value_name = "FRACTION")]
     pub support: Option<f64>,
     /// With --estimator mcd: seed of the random subset draws (equal seeds, equal models).
@@ -80,6 +84,11 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
         ),
         Error::ZeroVariance { column } => format!(
             "{}: column {} is constant (zero variance); leave it out with --exclude",
+            path.display(),
+            name(column)
+        ),
+        Error::ZeroRobustScale { column } => format!(
+            "{}: column {} has a robust scale of zero (about half of its values are tied); leave it out with --exclude",
             path.display(),
             name(column)
         ),
@@ -131,11 +140,18 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
     };
     let p = table.names.len();
     let is_mcd = matches!(args.estimator, EstimatorChoice::Mcd);
-    if !is_mcd && (args.support.is_some() || args.seed.is_some()) {
+    let is_mrcd = matches!(args.estimator, EstimatorChoice::Mrcd);
+    if is_mrcd && args.seed.is_some() {
+        return Err(CliError(
+            "--seed applies to --estimator mcd only (the mrcd fit has no random draws)".into(),
+        ));
+    }
+    if !is_mcd && !is_mrcd && (args.support.is_some() || args.seed.is_some()) {
         return Err(CliError(
             "--support and --seed apply to --estimator mcd only".into(),
         ));
     }
+    let mut regularized = RegularizedMcdOptions::default();
     let mut settings = McdOptions::default().with_seed(args.seed.unwrap_or(0));
     if let Some(f) = args.support {
         if !(f > 0.0 && f <= 1.0) {
@@ -143,13 +159,20 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
                 "--support {f}: the support fraction must be in (0, 1]"
             )));
         }
+        if is_mrcd && !(0.5..=1.0).contains(&f) {
+            return Err(CliError(format!(
+                "--support {f}: with --estimator mrcd the support fraction must be in [0.5, 1]"
+            )));
+        }
         settings = settings.with_support_fraction(f);
+        regularized = regularized.with_support_fraction(f);
     }
     let fit = |rows: ArrayView2<'_, f64>| match args.estimator {
         EstimatorChoice::Classical => DistanceModel::fit_with_divisor(rows, Divisor::Unbiased),
         EstimatorChoice::LedoitWolf => DistanceModel::fit_ledoit_wolf(rows),
         EstimatorChoice::Oas => DistanceModel::fit_oas(rows, OasFormula::Published),
         EstimatorChoice::Mcd => DistanceModel::fit_mcd(rows, &settings),
+        EstimatorChoice::Mrcd => DistanceModel::fit_regularized_mcd(rows, &regularized),
         EstimatorChoice::Em => DistanceModel::fit_incomplete(rows, &EmOptions::default()),
     };
     let rows = mvdist::data::rows_from_slice(&table.data, p)?;
@@ -203,6 +226,19 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
             } else {
                 "NOT converged (the estimate may be inaccurate)"
             }
+        );
+    }
+    if let FitMethod::RegularizedMcd {
+        regularization,
+        subset_size,
+        condition_bound,
+        ..
+    } = method
+    {
+        println!(
+            "MRCD: subset of {subset_size} rows; regularization {regularization:.4} (condition bound {condition_bound}); \
+             the χ² reference of its distances is approximate, rough when variables are about as many as rows or more \
+             (--hold-out gives p-values that do not rely on it); a flag is evidence for a closer look, not a verdict."
         );
     }
     if let Some(check) = check {
