@@ -31,6 +31,12 @@
 //! into the per-variable contributions of [`crate::explain`].
 //! [`chart_svg`] draws the chart.
 //!
+//! **Small sustained shifts.** A T² chart judges each point alone; the
+//! [`mewma`] chart (exponentially weighted moving average, [`MewmaChart`])
+//! and Crosier's [`mcusum`] chart ([`McusumChart`]) accumulate evidence
+//! over points and signal small persistent shifts of the mean much sooner.
+//! Their limits and average run lengths come from [`run_length`].
+//!
 //! **Cautions.** The limits assume that in-control points are independent
 //! and multivariate normal, and that Phase I really was in control after
 //! cleaning. Autocorrelated or skewed data, or a drifting Phase I, make the
@@ -76,15 +82,24 @@ mod chart;
 pub mod decomposition;
 mod diagnosis;
 mod false_alarm;
+mod in_control;
 mod limits;
+pub mod mcusum;
+pub mod mewma;
 mod point;
+pub mod run_length;
 mod settings;
+mod shift_run;
 pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
 pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;
+pub use in_control::InControlEstimate;
 pub use limits::ControlLimit;
+pub use mcusum::{McusumChart, McusumOptions};
+pub use mewma::{EwmaCovariance, MewmaChart, MewmaOptions};
 pub use point::{ChartPoint, PhaseOneRound, PointStatus};
 pub use settings::{PhaseOneOptions, PhaseOneStart, SignalRemoval};
+pub use shift_run::{first_signal, ChartScheme, ChartState, ShiftDiagnosis, ShiftPoint};
 pub use svg::chart_svg;

@@ -27,3 +27,4 @@ mod robust_calibration;
 mod robust_properties;
 mod robust_reference;
 mod scorer;
+mod small_shift;
