@@ -78,7 +78,7 @@ use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
 /// Stream tag of the run-length simulation (the first stream coordinate).
-const STREAM_TAG: u64 = 0x52_554E_4C45_4E;
+const STREAM_TAG: u64 = 0x5255_4E4C_454E;
 /// The cap of a run when none is set, for an evaluation at a given limit.
 const EVALUATION_CAP: u64 = 1_000_000;
 /// The cap of a run when none is set, for a limit search: this multiple of

@@ -420,7 +420,7 @@ fn out_of_control_run_lengths_match_published_values_long() {
 
 #[test]
 #[ignore = "long simulation; run in release mode"]
-fn lowry_in_control_limit_gives_about_200() {
+fn other_published_in_control_limits_give_about_200() {
     // Lowry et al. (1992), Technometrics 34, Table: p = 2, λ = 0.1,
     // h = 8.66 for an in-control ARL of 200 (RECALLED FROM MEMORY; their
     // figures are simulations, taken here with the asymptotic covariance).
@@ -439,7 +439,24 @@ fn lowry_in_control_limit_gives_about_200() {
     .unwrap();
     assert!(
         rel(e.average, 200.0) < 0.05,
-        "simulated {:.2} ± {:.2} (SE)",
+        "MEWMA h = 8.66: simulated {:.2} ± {:.2} (SE)",
+        e.average,
+        e.standard_error
+    );
+    // Crosier (1988), Technometrics 30: his MCUSUM with p = 2, k = 0.5 and
+    // h = 5.5 has an in-control ARL of about 200 (RECALLED FROM MEMORY).
+    let scheme = ChartScheme::Mcusum(McusumOptions::default().with_reference_value(0.5));
+    let e = average_run_length(
+        &scheme,
+        2,
+        5.5,
+        0.0,
+        &RunLengthOptions::default().with_runs(100_000),
+    )
+    .unwrap();
+    assert!(
+        rel(e.average, 200.0) < 0.05,
+        "MCUSUM h = 5.5: simulated {:.2} ± {:.2} (SE)",
         e.average,
         e.standard_error
     );
