@@ -14,8 +14,9 @@
 //! and signals when `Y_i > h`. The reference value `k` is commonly half
 //! the size `δ` of the shift to be detected quickly (the default, 0.5,
 //! aims at `δ = 1`; common practice). Since `S_i` is `S_{i−1} + x_i − μ`
-//! scaled by a number, `Y_i = C_i − k` exactly when `C_i > k`: one
-//! triangular solve with the Cholesky factor per row, never an inverse.
+//! scaled by a number, `Y_i = C_i − k` exactly when `C_i > k`: per row,
+//! one product with the triangular whitening factor `L⁻¹` of `Σ = L Lᵀ`;
+//! `Σ⁻¹` is never formed.
 //! Unlike the MEWMA distances, `C_i` depends on the previous step's
 //! shrinking, so the rows are processed one after another.
 //!

@@ -17,9 +17,10 @@
 //! gives `Z_i = x_i − μ` and the Shewhart T² chart with known parameters.
 //!
 //! Because `Σ_{Z_i}` is a scalar multiple of `Σ`, `T²_i = d²(Z_i)/c_i`
-//! with `d²` the squared generalized distance under `Σ`: one triangular
-//! solve with the Cholesky factor per row, never an inverse. The
-//! recursion is sequential in time; the distances of each block of `Z_i`
+//! with `d²` the squared generalized distance under `Σ`: per row, one
+//! product with the triangular whitening factor `L⁻¹` of the Cholesky
+//! factorization `Σ = L Lᵀ` (as for every distance in the crate);
+//! `Σ⁻¹` is never formed. The recursion is sequential in time; the distances of each block of `Z_i`
 //! are then computed together with the batch distance kernel.
 //!
 //! **Covariance form.** [`EwmaCovariance::Exact`] is the default: it is
@@ -526,5 +527,35 @@ impl MewmaChart {
         *state.vector_mut() = z;
         state.advance(n);
         Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_factor_follows_the_published_formula_and_switches_only_when_equal() {
+        // Lowry et al. (1992): c_i = λ/(2−λ)·[1 − (1−λ)^{2i}], evaluated
+        // here with powi; the switch to the asymptotic factor happens only
+        // where the two agree in floating point.
+        for lambda in [0.01, 0.05, 0.1, 0.3, 0.9, 1.0] {
+            let o = MewmaOptions::default().with_smoothing(lambda);
+            let scale = EwmaScale::new(&o).unwrap_or_else(|e| panic!("{e}"));
+            let a = lambda / (2.0 - lambda);
+            for i in 1..5000u64 {
+                let direct = a * (1.0 - (1.0 - lambda).powi(2 * i as i32));
+                let got = scale.at(i);
+                assert!((got - direct).abs() <= 1e-13 * a, "λ={lambda} i={i}");
+            }
+            assert!(scale.steady_from < u64::MAX);
+            assert_eq!(scale.at(scale.steady_from), a);
+            if scale.steady_from > 1 {
+                assert_ne!(scale.raw(scale.steady_from - 1), a);
+            }
+            let asymptotic = EwmaScale::new(&o.with_covariance(EwmaCovariance::Asymptotic))
+                .unwrap_or_else(|e| panic!("{e}"));
+            assert_eq!(asymptotic.at(1), a);
+        }
     }
 }

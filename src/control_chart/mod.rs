@@ -35,7 +35,9 @@
 //! [`mewma`] chart (exponentially weighted moving average, [`MewmaChart`])
 //! and Crosier's [`mcusum`] chart ([`McusumChart`]) accumulate evidence
 //! over points and signal small persistent shifts of the mean much sooner.
-//! Their limits and average run lengths come from [`run_length`].
+//! Both chart rows one [`ShiftPoint`] each (statistic, limit, signal, and
+//! for signals a [`ShiftDiagnosis`]); their limits and average run lengths
+//! come from [`run_length`].
 //!
 //! **Cautions.** The limits assume that in-control points are independent
 //! and multivariate normal, and that Phase I really was in control after
@@ -65,6 +67,11 @@
 //! ```
 //!
 //! # References
+//! - C. A. Lowry, W. H. Woodall, C. W. Champ and S. E. Rigdon (1992). A
+//!   multivariate exponentially weighted moving average control chart.
+//!   *Technometrics* 34, 46–53.
+//! - R. B. Crosier (1988). Multivariate generalizations of cumulative sum
+//!   quality-control schemes. *Technometrics* 30, 291–303.
 //! - N. D. Tracy, J. C. Young and R. L. Mason (1992). Multivariate control
 //!   charts for individual observations. *J. Quality Technology* 24, 88–95.
 //! - R. L. Mason, N. D. Tracy and J. C. Young (1995). Decomposition of T²
