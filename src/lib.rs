@@ -149,6 +149,16 @@ const _: () = {
     shared::<control_chart::ControlChart>();
     shared::<control_chart::ComponentChart>();
     shared::<control_chart::ComponentModel>();
+    shared::<control_chart::InControlEstimate>();
+    shared::<control_chart::MewmaChart>();
+    shared::<control_chart::McusumChart>();
+    shared::<control_chart::ChartState>();
+    shared::<control_chart::ShiftPoint>();
+    shared::<control_chart::ShiftDiagnosis>();
+    shared::<control_chart::EwmaCovariance>();
+    shared::<control_chart::run_length::RunLengthOptions>();
+    shared::<control_chart::run_length::RunLengthEstimate>();
+    shared::<control_chart::run_length::LimitDesign>();
     shared::<model_file::ModelFile>();
     shared::<calibration::EmpiricalReference>();
     shared::<held_out::CalibrationCheck>();

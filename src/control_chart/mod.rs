@@ -31,6 +31,14 @@
 //! into the per-variable contributions of [`crate::explain`].
 //! [`chart_svg`] draws the chart.
 //!
+//! **Small sustained shifts.** A T² chart judges each point alone; the
+//! [`mewma`] chart (exponentially weighted moving average, [`MewmaChart`])
+//! and Crosier's [`mcusum`] chart ([`McusumChart`]) accumulate evidence
+//! over points and signal small persistent shifts of the mean much sooner.
+//! Both chart rows one [`ShiftPoint`] each (statistic, limit, signal, and
+//! for signals a [`ShiftDiagnosis`]); their limits and average run lengths
+//! come from [`run_length`].
+//!
 //! **Cautions.** The limits assume that in-control points are independent
 //! and multivariate normal, and that Phase I really was in control after
 //! cleaning. Autocorrelated or skewed data, or a drifting Phase I, make the
@@ -59,6 +67,11 @@
 //! ```
 //!
 //! # References
+//! - C. A. Lowry, W. H. Woodall, C. W. Champ and S. E. Rigdon (1992). A
+//!   multivariate exponentially weighted moving average control chart.
+//!   *Technometrics* 34, 46–53.
+//! - R. B. Crosier (1988). Multivariate generalizations of cumulative sum
+//!   quality-control schemes. *Technometrics* 30, 291–303.
 //! - N. D. Tracy, J. C. Young and R. L. Mason (1992). Multivariate control
 //!   charts for individual observations. *J. Quality Technology* 24, 88–95.
 //! - R. L. Mason, N. D. Tracy and J. C. Young (1995). Decomposition of T²
@@ -77,10 +90,15 @@ mod components;
 pub mod decomposition;
 mod diagnosis;
 mod false_alarm;
+mod in_control;
 mod limits;
+pub mod mcusum;
+pub mod mewma;
 pub(crate) mod panels;
 mod point;
+pub mod run_length;
 mod settings;
+mod shift_run;
 pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
@@ -91,7 +109,11 @@ pub use components::{
 };
 pub use diagnosis::{RatedTerm, SignalDiagnosis};
 pub use false_alarm::FalseAlarmRate;
+pub use in_control::InControlEstimate;
 pub use limits::ControlLimit;
+pub use mcusum::{McusumChart, McusumOptions};
+pub use mewma::{EwmaCovariance, MewmaChart, MewmaOptions};
 pub use point::{ChartPoint, PhaseOneRound, PointStatus};
 pub use settings::{PhaseOneOptions, PhaseOneStart, SignalRemoval};
+pub use shift_run::{first_signal, ChartScheme, ChartState, ShiftDiagnosis, ShiftPoint};
 pub use svg::chart_svg;

@@ -29,3 +29,4 @@ mod robust_calibration;
 mod robust_properties;
 mod robust_reference;
 mod scorer;
+mod small_shift;
