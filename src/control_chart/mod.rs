@@ -99,6 +99,7 @@ mod point;
 pub mod run_length;
 mod settings;
 mod shift_run;
+mod shift_svg;
 pub(crate) mod svg;
 
 pub use chart::{ChartDesign, ControlChart};
@@ -116,4 +117,5 @@ pub use mewma::{EwmaCovariance, MewmaChart, MewmaOptions};
 pub use point::{ChartPoint, PhaseOneRound, PointStatus};
 pub use settings::{PhaseOneOptions, PhaseOneStart, SignalRemoval};
 pub use shift_run::{first_signal, ChartScheme, ChartState, ShiftDiagnosis, ShiftPoint};
+pub use shift_svg::shift_chart_svg;
 pub use svg::chart_svg;

@@ -28,6 +28,10 @@ pub enum ChartKind {
     T2,
     /// T² on principal components with the squared prediction error Q.
     Components,
+    /// Multivariate EWMA, for small sustained shifts of the mean.
+    Mewma,
+    /// Crosier's multivariate CUSUM, for small sustained shifts of the mean.
+    Mcusum,
 }
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
@@ -55,9 +59,33 @@ pub struct ChartArgs {
     /// With --kind components: how the limit of Q is computed.
     #[arg(long, value_enum, default_value = "jackson-mudholkar")]
     pub residual_limit: ResidualLimitArg,
-    /// With --kind components: how many top contributing variables to list for each signal.
+    /// With --kind components, mewma or mcusum: how many top contributing variables to list for each signal.
     #[arg(long, default_value_t = 3)]
     pub top: usize,
+    /// With --kind mewma: the smoothing constant λ in (0, 1] [default: 0.1].
+    #[arg(long)]
+    pub smoothing: Option<f64>,
+    /// With --kind mewma: standardize by the asymptotic covariance λ/(2−λ)·Σ instead of the exact one of each row (the form of published limit tables).
+    #[arg(long)]
+    pub asymptotic_covariance: bool,
+    /// With --kind mcusum: the reference value k ≥ 0 in units of the generalized norm [default: 0.5].
+    #[arg(long)]
+    pub reference_value: Option<f64>,
+    /// With --kind mewma or mcusum: the control limit h, instead of one designed by simulation for --arl.
+    #[arg(long, conflicts_with = "arl")]
+    pub limit: Option<f64>,
+    /// With --kind mewma or mcusum: a shift size δ (in Mahalanobis units) whose average run length to report; repeat for several.
+    #[arg(long = "shift")]
+    pub shifts: Vec<f64>,
+    /// With --kind mewma or mcusum: simulated runs for the limit design and the run lengths.
+    #[arg(long, default_value_t = 10_000)]
+    pub runs: usize,
+    /// With --kind mewma or mcusum: seed of the run-length simulation [default: a fixed seed].
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// With --kind mewma or mcusum: take the in-control mean and covariance from this model file instead of estimating them from DATA.
+    #[arg(long)]
+    pub in_control_model: Option<PathBuf>,
     /// CSV file of historical rows (Phase I), in time order.
     pub data: PathBuf,
     /// CSV file of new rows to monitor (Phase II), with the same variables.
@@ -114,18 +142,24 @@ fn rate(args: &ChartArgs) -> Result<FalseAlarmRate, CliError> {
     }
 }
 
-fn status_text(s: &PointStatus) -> String {
-    match s {
-        PointStatus::InEstimate => "in_estimate".into(),
-        PointStatus::Removed { round, .. } => format!("removed_round_{round}"),
-        PointStatus::Monitored => "monitored".into(),
-    }
-}
-
 pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let rate = rate(args)?;
-    if args.kind == ChartKind::Components {
-        return crate::chart_components::run(args, rate);
+    let shift_only = args.smoothing.is_some()
+        || args.asymptotic_covariance
+        || args.reference_value.is_some()
+        || args.limit.is_some()
+        || !args.shifts.is_empty()
+        || args.seed.is_some()
+        || args.in_control_model.is_some();
+    match args.kind {
+        ChartKind::Mewma | ChartKind::Mcusum => return crate::chart_shift::run(args),
+        _ if shift_only => {
+            return Err(CliError(
+                "--smoothing, --asymptotic-covariance, --reference-value, --limit, --shift, --seed and --in-control-model apply to --kind mewma or mcusum".into(),
+            ))
+        }
+        ChartKind::Components => return crate::chart_components::run(args, rate),
+        ChartKind::T2 => {}
     }
     if args.components.is_some() || args.explained.is_some() || args.no_scaling {
         return Err(CliError(
@@ -193,15 +227,10 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         other => explain_fit_error(&args.data, &names, history.rows, other),
     })?;
 
-    let (new_points, new_labels) = match &args.new {
+    let (new_points, new_labels) = match read_new_rows(args, &names)? {
         None => (Vec::new(), Vec::new()),
-        Some(path) => {
-            let t = read_table_named(
-                path,
-                &names,
-                args.columns.label.as_deref(),
-                args.skip_incomplete,
-            )?;
+        Some(t) => {
+            let path = args.new.as_deref().unwrap_or(args.data.as_path());
             let pts = chart
                 .monitor(mvdist::data::rows_from_slice(&t.data, p)?)
                 .map_err(|e| match e {
@@ -218,42 +247,33 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
 
     // Points CSV.
     let size = args.subgroup_size.unwrap_or(1);
-    let mut out = PendingFile::create(&args.out)?;
-    let io = |e: std::io::Error| CliError(format!("{}: {e}", args.out.display()));
-    let mut header = vec!["phase", "point", "first_row", "last_row"];
-    if args.columns.label.is_some() {
-        header.push("label");
-    }
-    header.extend([
-        "status",
-        "t2",
-        "ucl",
-        "p_value",
-        "signal",
-        "top_term",
-        "top_term_value",
-        "top_term_cutoff",
-        "terms_over_cutoff",
-        "out_of_range",
-        "broken_relationships",
-        "top_variable",
-        "top_share",
-    ]);
-    writeln!(out.writer(), "{}", header.join(",")).map_err(io)?;
+    let mut out = points_file(
+        args,
+        &["phase", "point", "first_row", "last_row"],
+        &[
+            "status",
+            "t2",
+            "ucl",
+            "p_value",
+            "signal",
+            "top_term",
+            "top_term_value",
+            "top_term_cutoff",
+            "terms_over_cutoff",
+            "out_of_range",
+            "broken_relationships",
+            "top_variable",
+            "top_share",
+        ],
+    )?;
+    let io = |e: std::io::Error| points_error(args, e);
     for (phase, points, labels) in [
         (1, chart.phase_one_points(), &history.labels),
         (2, new_points.as_slice(), &new_labels),
     ] {
         for pt in points {
             let first = pt.index * size + 1;
-            let label = if args.columns.label.is_some() {
-                format!(
-                    ",{}",
-                    csv_field(labels.get(pt.index * size).map_or("", |s| s.as_str()))
-                )
-            } else {
-                String::new()
-            };
+            let label = label_field(args, labels, pt.index * size);
             let diag = match &pt.diagnosis {
                 Some(d) => {
                     let top = d.terms.first();
@@ -407,4 +427,84 @@ pub(crate) fn finish_report(signals: usize, args: &ChartArgs, assumption: &str) 
             .map_or_else(String::new, |s| format!(" and {}", s.display()))
     );
     println!("note: {assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
+}
+
+/// The rows of `--new`, read with the chart's variables (`None` without
+/// the option).
+pub(crate) fn read_new_rows(
+    args: &ChartArgs,
+    names: &[String],
+) -> Result<Option<crate::table::Table>, CliError> {
+    args.new
+        .as_ref()
+        .map(|path| {
+            read_table_named(
+                path,
+                names,
+                args.columns.label.as_deref(),
+                args.skip_incomplete,
+            )
+        })
+        .transpose()
+}
+
+/// Creates the points file (written in full or not at all) with its
+/// header: `leading` columns, `label` when a label column is charted, then
+/// `columns`.
+pub(crate) fn points_file(
+    args: &ChartArgs,
+    leading: &[&str],
+    columns: &[&str],
+) -> Result<PendingFile, CliError> {
+    let mut out = PendingFile::create(&args.out)?;
+    let mut header = leading.to_vec();
+    if args.columns.label.is_some() {
+        header.push("label");
+    }
+    header.extend_from_slice(columns);
+    writeln!(out.writer(), "{}", header.join(",")).map_err(|e| points_error(args, e))?;
+    Ok(out)
+}
+
+/// An error writing the points file.
+pub(crate) fn points_error(args: &ChartArgs, e: std::io::Error) -> CliError {
+    CliError(format!("{}: {e}", args.out.display()))
+}
+
+/// `,label` of row `row` when a label column is charted (empty otherwise).
+pub(crate) fn label_field(args: &ChartArgs, labels: &[String], row: usize) -> String {
+    if args.columns.label.is_some() {
+        format!(",{}", csv_field(labels.get(row).map_or("", |s| s.as_str())))
+    } else {
+        String::new()
+    }
+}
+
+/// The status of a Phase I point in the points file.
+pub(crate) fn status_text(s: &PointStatus) -> String {
+    match s {
+        PointStatus::InEstimate => "in_estimate".into(),
+        PointStatus::Removed { round, .. } => format!("removed_round_{round}"),
+        PointStatus::Monitored => "monitored".into(),
+    }
+}
+
+/// The points of the `--new` rows charted by `monitor`, with their labels
+/// (both empty without the option); errors name the file.
+pub(crate) fn monitor_new_rows<P>(
+    args: &ChartArgs,
+    names: &[String],
+    monitor: impl FnOnce(ndarray::ArrayView2<'_, f64>) -> mvdist::Result<Vec<P>>,
+) -> Result<(Vec<P>, Vec<String>), CliError> {
+    match read_new_rows(args, names)? {
+        None => Ok((Vec::new(), Vec::new())),
+        Some(t) => {
+            let points =
+                monitor(mvdist::data::rows_from_slice(&t.data, names.len())?).map_err(|e| {
+                    let path = args.new.as_deref().unwrap_or(args.data.as_path());
+                    CliError(format!("{}: {e}", path.display()))
+                })?;
+            Ok((points, t.labels))
+        }
+    }
 }

@@ -2,10 +2,13 @@
 //! squared prediction error Q, Phase I on historical rows and optional
 //! Phase II on new rows; a CSV of points and an SVG with both panels.
 
-use crate::chart::{finish_report, ChartArgs, ResidualLimitArg};
+use crate::chart::{
+    finish_report, label_field, monitor_new_rows, points_error, points_file, status_text,
+    ChartArgs, ResidualLimitArg,
+};
 use crate::fit::explain_fit_error;
-use crate::output::{csv_field, number_field, write_atomically, PendingFile};
-use crate::table::{read_table, read_table_named};
+use crate::output::{csv_field, number_field, write_atomically};
+use crate::table::read_table;
 use crate::CliError;
 use mvdist::control_chart::{
     component_chart_svg, ComponentChart, ComponentContributions, ComponentCount, ComponentOptions,
@@ -13,14 +16,6 @@ use mvdist::control_chart::{
     VariableScaling,
 };
 use std::io::Write;
-
-fn status_text(s: &PointStatus) -> String {
-    match s {
-        PointStatus::InEstimate => "in_estimate".into(),
-        PointStatus::Removed { round, .. } => format!("removed_round_{round}"),
-        PointStatus::Monitored => "monitored".into(),
-    }
-}
 
 /// `name (share)` of the `top` largest terms, shares of the statistic.
 fn top_list(terms: &[f64], order: Vec<usize>, names: &[String]) -> String {
@@ -86,57 +81,34 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
         }
         other => explain_fit_error(&args.data, &names, history.rows, other),
     })?;
-    let (new_points, new_labels) = match &args.new {
-        None => (Vec::new(), Vec::new()),
-        Some(path) => {
-            let t = read_table_named(
-                path,
-                &names,
-                args.columns.label.as_deref(),
-                args.skip_incomplete,
-            )?;
-            let pts = chart
-                .monitor(mvdist::data::rows_from_slice(&t.data, p)?)
-                .map_err(|e| CliError(format!("{}: {e}", path.display())))?;
-            (pts, t.labels)
-        }
-    };
+    let (new_points, new_labels) = monitor_new_rows(args, &names, |rows| chart.monitor(rows))?;
 
-    let mut out = PendingFile::create(&args.out)?;
-    let io = |e: std::io::Error| CliError(format!("{}: {e}", args.out.display()));
-    let mut header = vec!["phase", "point"];
-    if args.columns.label.is_some() {
-        header.push("label");
-    }
-    header.extend([
-        "status",
-        "t2",
-        "t2_limit",
-        "t2_p_value",
-        "q",
-        "q_limit",
-        "q_p_value",
-        "t2_signal",
-        "q_signal",
-        "signal",
-        "top_t2_variables",
-        "top_q_variables",
-    ]);
-    writeln!(out.writer(), "{}", header.join(",")).map_err(io)?;
+    let mut out = points_file(
+        args,
+        &["phase", "point"],
+        &[
+            "status",
+            "t2",
+            "t2_limit",
+            "t2_p_value",
+            "q",
+            "q_limit",
+            "q_p_value",
+            "t2_signal",
+            "q_signal",
+            "signal",
+            "top_t2_variables",
+            "top_q_variables",
+        ],
+    )?;
+    let io = |e: std::io::Error| points_error(args, e);
     let opt = |v: Option<f64>| v.map_or_else(String::new, number_field);
     for (phase, points, labels) in [
         (1, chart.phase_one_points(), &history.labels),
         (2, new_points.as_slice(), &new_labels),
     ] {
         for pt in points {
-            let label = if args.columns.label.is_some() {
-                format!(
-                    ",{}",
-                    csv_field(labels.get(pt.index).map_or("", |s| s.as_str()))
-                )
-            } else {
-                String::new()
-            };
+            let label = label_field(args, labels, pt.index);
             writeln!(
                 out.writer(),
                 "{phase},{}{label},{},{},{},{},{},{},{},{},{},{},{}",

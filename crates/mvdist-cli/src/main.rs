@@ -15,6 +15,7 @@
 
 mod chart;
 mod chart_components;
+mod chart_shift;
 mod classify;
 mod compare_means;
 mod fit;
@@ -45,7 +46,7 @@ enum Command {
     /// Hotelling T² test of mean vectors: one sample vs a target, or two samples.
     CompareMeans(compare_means::CompareMeansArgs),
     /// T² control chart: Phase I on historical rows, Phase II on new rows; CSV and SVG.
-    Chart(chart::ChartArgs),
+    Chart(Box<chart::ChartArgs>),
     /// Check multivariate normality: Mardia, Henze-Zirkler, Royston, Doornik-Hansen, per-variable shape.
     Normality(normality::NormalityArgs),
 }

@@ -1696,3 +1696,204 @@ fn component_chart_writes_both_statistics_that_match_the_library() {
         fails(&refs, &out2, message);
     }
 }
+
+/// The iris rows `picked` (open dataset, scikit-learn fixture) as CSV with
+/// a label column naming the species and the row.
+fn iris_rows_csv(dir: &Path, name: &str, picked: &[usize]) -> (PathBuf, ndarray::Array2<f64>) {
+    let f = common::fixture("iris_covariance.json");
+    let all = common::matrix(&f["data"]);
+    let species = ["setosa", "versicolor", "virginica"];
+    let x = all.select(ndarray::Axis(0), picked);
+    let mut text = String::from("flower,sepal_length,sepal_width,petal_length,petal_width\n");
+    for (&i, row) in picked.iter().zip(x.outer_iter()) {
+        let label = species[f["labels"][i].as_u64().unwrap() as usize];
+        text += &format!("{label}_{i},{},{},{},{}\n", row[0], row[1], row[2], row[3]);
+    }
+    (write(dir, name, &text), x)
+}
+
+/// `chart --kind mewma|mcusum`: the statistics in the points CSV are the
+/// library's (same estimate, same limit), the chart stays quiet on held-out
+/// setosa rows and signals once the rows switch to versicolor (a shift of
+/// many standard deviations in the petal measurements), with a petal
+/// variable as the largest term; a designed limit is the library's design.
+#[test]
+fn shift_charts_match_the_library_and_signal_after_the_switch() {
+    use mvdist::control_chart::run_length::{limit_for_average_run_length, RunLengthOptions};
+    use mvdist::control_chart::{
+        ChartScheme, InControlEstimate, McusumChart, McusumOptions, MewmaChart, MewmaOptions,
+    };
+    let dir = TempDir::new().unwrap();
+    let (history, xh) = iris_rows_csv(dir.path(), "history.csv", &(0..35).collect::<Vec<_>>());
+    let (new, xn) = iris_rows_csv(dir.path(), "new.csv", &(35..65).collect::<Vec<_>>());
+    let estimate = InControlEstimate::from_rows(xh.view()).unwrap();
+    let out = dir.path().join("points.csv");
+    let svg = dir.path().join("chart.svg");
+    let run = |extra: &[&str]| {
+        mvdist()
+            .arg("chart")
+            .arg(&history)
+            .arg("--new")
+            .arg(&new)
+            .arg("--out")
+            .arg(&out)
+            .arg("--svg")
+            .arg(&svg)
+            .args(["--label", "flower", "--runs", "300", "--seed", "4"])
+            .args(extra)
+            .assert()
+            .success()
+    };
+    for kind in ["mewma", "mcusum"] {
+        let h = if kind == "mewma" { 12.0 } else { 8.0 };
+        let assert = run(&["--kind", kind, "--limit", &h.to_string(), "--shift", "1"]);
+        let stdout = String::from_utf8(assert.get_output().stdout.clone()).unwrap();
+        assert!(stdout.contains("ARL at a shift of size δ = 1"), "{stdout}");
+        assert!(stdout.contains("not a verdict"), "{stdout}");
+        assert!(
+            stdout.contains("Phase II (from the zero state): 30 new rows"),
+            "{stdout}"
+        );
+        let (one, two) = if kind == "mewma" {
+            let c = MewmaChart::new(estimate.clone(), &MewmaOptions::default(), h).unwrap();
+            (c.monitor(xh.view()).unwrap(), c.monitor(xn.view()).unwrap())
+        } else {
+            let c = McusumChart::new(estimate.clone(), &McusumOptions::default(), h).unwrap();
+            (c.monitor(xh.view()).unwrap(), c.monitor(xn.view()).unwrap())
+        };
+        let (header, rows) = read_points(&out);
+        assert_eq!(
+            header.join(","),
+            "phase,point,label,status,step,statistic,limit,signal,top_variables"
+        );
+        assert_eq!(rows.len(), 65);
+        for (r, pt) in rows.iter().zip(one.iter().chain(&two)) {
+            assert_eq!(r[5].parse::<f64>().unwrap(), pt.statistic, "{kind} {r:?}");
+            assert_eq!(r[6].parse::<f64>().unwrap(), h);
+            assert_eq!(r[7] == "true", pt.signal);
+            assert_eq!(r[8].is_empty(), !pt.signal);
+        }
+        assert_eq!(rows[35][2], "setosa_35");
+        assert_eq!(rows[35][4], "1", "Phase II restarts from the zero state");
+        // Held-out setosa rows stay near the limit (flower 42, new row 7, is
+        // the unusual setosa with sepal width 2.3 — recalled from memory —
+        // and may cross it); every versicolor row is far above it, mostly
+        // through a petal variable.
+        let setosa_max = two[..15].iter().map(|p| p.statistic).fold(0.0, f64::max);
+        assert!(setosa_max < 1.2 * h, "{kind}: {setosa_max}");
+        for (k, p) in two[15..].iter().enumerate() {
+            assert!(
+                p.signal && p.statistic > 2.0 * h,
+                "{kind}: versicolor row {k}: {}",
+                p.statistic
+            );
+            let top = &rows[50 + k][8];
+            assert!(top.starts_with("petal_"), "{kind}: {top}");
+        }
+        let picture = std::fs::read_to_string(&svg).unwrap();
+        assert!(picture.starts_with("<svg") && picture.contains("Phase II"));
+        assert!(picture.contains(if kind == "mewma" {
+            "MEWMA T²"
+        } else {
+            "MCUSUM Y"
+        }));
+    }
+
+    // A designed limit: the library's design with the same runs and seed.
+    let assert = run(&["--kind", "mewma", "--arl", "30", "--smoothing", "0.2"]);
+    let stdout = String::from_utf8(assert.get_output().stdout.clone()).unwrap();
+    assert!(
+        stdout.contains("designed for an in-control ARL of 30.0"),
+        "{stdout}"
+    );
+    let design = limit_for_average_run_length(
+        &ChartScheme::Mewma(MewmaOptions::default().with_smoothing(0.2)),
+        4,
+        30.0,
+        &RunLengthOptions::default().with_runs(300).with_seed(4),
+    )
+    .unwrap();
+    let (_, rows) = read_points(&out);
+    assert_eq!(rows[0][6].parse::<f64>().unwrap(), design.limit);
+}
+
+/// `--remove-signals` with a shift chart: a T² Phase I screen removes the
+/// three versicolor rows mixed into the setosa history before the estimate,
+/// and the points CSV says so; wrong combinations are refused with a
+/// reason and leave no file.
+#[test]
+fn shift_chart_screens_history_and_refuses_wrong_options() {
+    let dir = TempDir::new().unwrap();
+    let (history, _) = iris_rows_csv(
+        dir.path(),
+        "history.csv",
+        &(0..40).chain(60..63).collect::<Vec<_>>(),
+    );
+    let out = dir.path().join("points.csv");
+    mvdist()
+        .arg("chart")
+        .arg(&history)
+        .arg("--out")
+        .arg(&out)
+        .args([
+            "--kind",
+            "mcusum",
+            "--limit",
+            "6",
+            "--runs",
+            "200",
+            "--remove-signals",
+            "--label",
+            "flower",
+        ])
+        .assert()
+        .success()
+        .stdout(predicate::str::contains("estimated from 40 of 43 rows"));
+    let (_, rows) = read_points(&out);
+    assert!(rows[..40].iter().all(|r| r[3] == "in_estimate"));
+    assert!(
+        rows[40..]
+            .iter()
+            .all(|r| r[3].starts_with("removed_round_")),
+        "{:?}",
+        &rows[40..]
+    );
+
+    let bad = dir.path().join("bad.csv");
+    for (extra, message) in [
+        (
+            vec!["--kind", "mcusum", "--smoothing", "0.2"],
+            "apply to --kind mewma",
+        ),
+        (
+            vec!["--kind", "mewma", "--reference-value", "1"],
+            "applies to --kind mcusum",
+        ),
+        (vec!["--kind", "mewma", "--alpha", "0.01"], "give --arl"),
+        (
+            vec!["--kind", "mewma", "--smoothing", "1.5", "--limit", "9"],
+            "invalid smoothing",
+        ),
+        (vec!["--kind", "mewma", "--limit=-1"], "limit"),
+        (
+            vec!["--kind", "mcusum", "--subgroup-size", "5"],
+            "does not apply",
+        ),
+        (
+            vec!["--smoothing", "0.2"],
+            "apply to --kind mewma or mcusum",
+        ),
+    ] {
+        let mut args: Vec<std::ffi::OsString> = vec![
+            "chart".into(),
+            history.clone().into(),
+            "--out".into(),
+            bad.clone().into(),
+            "--label".into(),
+            "flower".into(),
+        ];
+        args.extend(extra.iter().map(std::ffi::OsString::from));
+        let refs: Vec<&std::ffi::OsStr> = args.iter().map(|s| s.as_os_str()).collect();
+        fails(&refs, &bad, message);
+    }
+}
