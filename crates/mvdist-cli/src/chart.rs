@@ -11,7 +11,6 @@ use mvdist::control_chart::{
     PointStatus, SignalRemoval,
 };
 use mvdist::RowOrigin;
-use std::io::Write;
 use std::path::PathBuf;
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
@@ -346,14 +345,14 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         .iter()
         .filter(|p| p.status == PointStatus::InEstimate && p.signal)
         .count();
-    println!(
+    note!(
         "Phase I: {} {unit} × {p} variables ({}); false-alarm rate {} per point (ARL {:.0})",
         chart.phase_one_points().len(),
         names.join(", "),
         rate.alpha(),
         rate.average_run_length()
     );
-    println!(
+    note!(
         "  estimate from {} points; Phase I UCL = {:.4}; {removed} removed in {} round(s){}; {remaining} signal(s) among the points kept",
         chart.in_estimate(),
         chart.upper_limit(RowOrigin::InSample)?,
@@ -363,12 +362,12 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     let phase_two_ucl = chart.upper_limit(RowOrigin::New)?;
     if args.new.is_some() {
         let signals = new_points.iter().filter(|p| p.signal).count();
-        println!(
+        note!(
             "Phase II: {} new points, UCL = {phase_two_ucl:.4}: {signals} signal(s)",
             new_points.len()
         );
     } else {
-        println!("  Phase II UCL for new points: {phase_two_ucl:.4}");
+        note!("  Phase II UCL for new points: {phase_two_ucl:.4}");
     }
     let signals: Vec<(usize, &ChartPoint)> = chart
         .phase_one_points()
@@ -387,7 +386,7 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
                 .take(3)
                 .map(|t| t.label(&names))
                 .collect();
-            println!(
+            note!(
                 "  Phase {} point {}: T² = {:.3} > {:.3}; largest term {} = {:.3} (cutoff {:.3}); out of range: {}; broken relationships: {}",
                 if *phase == 1 { "I" } else { "II" },
                 pt.index + 1,
@@ -412,21 +411,22 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
 /// The end of every chart report: how many signals were not listed, the
 /// files written, and the caution.
 pub(crate) fn finish_report(signals: usize, args: &ChartArgs, assumption: &str) {
+    crate::output::record_flags(signals > 0);
     if signals > 12 {
-        println!(
+        note!(
             "  … {} more signal(s) in {}",
             signals - 12,
             args.out.display()
         );
     }
-    println!(
+    note!(
         "wrote {}{}",
         args.out.display(),
         args.svg
             .as_ref()
             .map_or_else(String::new, |s| format!(" and {}", s.display()))
     );
-    println!("note: {assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
+    note!("note: {assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
 }
 
 /// The rows of `--new`, read with the chart's variables (`None` without

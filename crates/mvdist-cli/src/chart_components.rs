@@ -15,7 +15,6 @@ use mvdist::control_chart::{
     ComponentPoint, FalseAlarmRate, PointStatus, ResidualLimitMethod, SignalRemoval,
     VariableScaling,
 };
-use std::io::Write;
 
 /// `name (share)` of the `top` largest terms, shares of the statistic.
 fn top_list(terms: &[f64], order: Vec<usize>, names: &[String]) -> String {
@@ -150,7 +149,7 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
         .iter()
         .filter(|p| matches!(p.status, PointStatus::Removed { .. }))
         .count();
-    println!(
+    note!(
         "Phase I: {} rows × {p} variables; {} components explain {:.1}% of the {} variance; false-alarm rate {} per point and statistic",
         chart.phase_one_points().len(),
         model.components(),
@@ -159,7 +158,7 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
         rate.alpha()
     );
     let q_limit = chart.residual_limit()?;
-    println!(
+    note!(
         "  model from {} rows; T² limit {:.4} (Phase I), {:.4} (new rows); Q limit {}{}; {removed} removed in {} round(s){}",
         model.observations(),
         chart.t_squared_limit(true)?,
@@ -178,7 +177,7 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
     if args.new.is_some() {
         let t = new_points.iter().filter(|p| p.t_squared_signal).count();
         let q = new_points.iter().filter(|p| p.residual_signal).count();
-        println!(
+        note!(
             "Phase II: {} new rows: {t} T² signal(s), {q} Q signal(s)",
             new_points.len()
         );
@@ -192,7 +191,7 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
         .collect();
     for (phase, pt) in signals.iter().take(12) {
         let d = pt.diagnosis.as_ref();
-        println!(
+        note!(
             "  Phase {} row {}: {}{}",
             if *phase == 1 { "I" } else { "II" },
             pt.index + 1,

@@ -22,7 +22,6 @@ use mvdist::control_chart::{
     SignalRemoval,
 };
 use ndarray::ArrayView2;
-use std::io::Write;
 
 /// The chart of either kind.
 enum ShiftChart {
@@ -308,8 +307,8 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
     }
 
     // Summary.
-    println!("{what} chart of {p} variables; in-control {source}");
-    println!(
+    note!("{what} chart of {p} variables; in-control {source}");
+    note!(
         "  limit h = {limit:.4}{}; simulated in-control ARL {} (SE; {} runs, seed {})",
         designed.map_or_else(
             || " (given)".to_string(),
@@ -320,7 +319,7 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         in_control.seed
     );
     for r in &shifted {
-        println!(
+        note!(
             "  ARL at a shift of size δ = {}: {}",
             r.shift,
             run_length_text(r)
@@ -336,14 +335,14 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             },
         )
     };
-    println!(
+    note!(
         "Phase I (retrospective, from the zero state): {} rows, {} signal(s); first at {}",
         first.len(),
         count(&first),
         first_at(&first, &history.labels)
     );
     if args.new.is_some() {
-        println!(
+        note!(
             "Phase II (from the zero state): {} new rows, {} signal(s); first at {}",
             second.len(),
             count(&second),
@@ -357,7 +356,7 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
         .filter(|(_, p)| p.signal)
         .collect();
     for (phase, pt) in signals.iter().take(12) {
-        println!(
+        note!(
             "  Phase {} point {} (step {}): {:.3} > {:.3}; largest terms {}",
             if *phase == 1 { "I" } else { "II" },
             pt.index + 1,

@@ -13,7 +13,6 @@ use mvdist::classification::{
     Priors, Rule,
 };
 use mvdist::Error;
-use std::io::Write;
 use std::path::{Path, PathBuf};
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
@@ -81,7 +80,7 @@ struct LabelledRows {
 /// are errors naming the line and column.
 fn read_rows(
     path: &Path,
-    reader: &mut csv::Reader<std::fs::File>,
+    reader: &mut csv::Reader<crate::table::Source>,
     layout: &crate::table::Layout,
 ) -> Result<LabelledRows, CliError> {
     let mut data = Vec::new();
@@ -158,27 +157,27 @@ fn explain_classifier_error(
 }
 
 fn print_confusion(title: &str, groups: &[String], m: &ConfusionMatrix) {
-    println!("{title} (rows: actual group, columns: assigned group)");
+    note!("{title} (rows: actual group, columns: assigned group)");
     let width = groups
         .iter()
         .map(|g| g.chars().count())
         .max()
         .unwrap_or(0)
         .max(6);
-    print!("{:>width$}", "");
+    let mut line = format!("{:>width$}", "");
     for g in groups {
-        print!("  {g:>width$}");
+        line += &format!("  {g:>width$}");
     }
-    println!("  {:>width$}", "error");
+    note!("{line}  {:>width$}", "error");
     let rates = m.group_error_rates();
     for (a, g) in groups.iter().enumerate() {
-        print!("{g:>width$}");
+        let mut line = format!("{g:>width$}");
         for b in 0..groups.len() {
-            print!("  {:>width$}", m.count(a, b));
+            line += &format!("  {:>width$}", m.count(a, b));
         }
-        println!("  {:>width$.4}", rates[a]);
+        note!("{line}  {:>width$.4}", rates[a]);
     }
-    println!(
+    note!(
         "error rate {:.4} ({} of {} rows)",
         m.error_rate(),
         m.total() - m.correct(),
@@ -252,7 +251,7 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
             &groups,
             loo.confusion(),
         );
-        println!(
+        note!(
             "resubstitution error rate {:.4} (optimistic: each row helped fit the rule that classifies it)",
             resub.error_rate()
         );
@@ -322,7 +321,7 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
         writeln!(file.writer(), "{line}").map_err(io)?;
     }
     file.finish()?;
-    println!(
+    note!(
         "classified {} rows of {} into {} groups ({} rule, {} priors, fitted on {} rows of {}); wrote {}",
         out.len(),
         args.data.display(),
@@ -333,13 +332,14 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
         args.train.display(),
         args.out.display()
     );
+    crate::output::record_flags(no_group > 0);
     if let Some(level) = args.no_group_below {
-        println!("{no_group} row(s) atypical of every group at level {level}: their group is left empty for review");
+        note!("{no_group} row(s) atypical of every group at level {level}: their group is left empty for review");
     }
     if has_label {
         report_accuracy(args, &classifier, &data, &out);
     }
-    println!("note: posteriors and typicality assume each group is multivariate normal with the modelled scatter; an assignment or a \"no group\" is evidence for review, not a verdict.");
+    note!("note: posteriors and typicality assume each group is multivariate normal with the modelled scatter; an assignment or a \"no group\" is evidence for review, not a verdict.");
     Ok(())
 }
 
@@ -366,7 +366,7 @@ fn report_accuracy(
     }
     if let Ok(m) = ConfusionMatrix::from_groups(&actual, &assigned, classifier.group_count()) {
         if m.total() > 0 {
-            println!(
+            note!(
                 "accuracy on the {} rows of {} whose '{}' is a training group: {:.4} ({} misassigned)",
                 m.total(),
                 args.data.display(),
@@ -381,7 +381,7 @@ fn report_accuracy(
         names.sort_unstable();
         names.dedup();
         let shown: Vec<String> = names.iter().take(5).map(|l| format!("'{l}'")).collect();
-        println!(
+        note!(
             "{} row(s) of {} have a '{}' that is not a training group ({}{}; first at line {}); they are left out of the accuracy",
             unknown.len(),
             args.data.display(),

@@ -169,7 +169,7 @@ pub fn run(args: &CompareMeansArgs) -> Result<(), CliError> {
             scatter_equality: scatter.as_ref(),
             caution: CAUTION,
         };
-        println!("{}", serde_json::to_string_pretty(&report)?);
+        say!("{}", serde_json::to_string_pretty(&report)?);
         return Ok(());
     }
     print_table(
@@ -216,16 +216,16 @@ fn print_table(
             format!("mean of {first} − mean of {second}"),
         ),
     };
-    println!("Hotelling T² test: {title}");
+    say!("Hotelling T² test: {title}");
     match sizes {
-        [n] => println!("  {first}: {n} rows; {} variables", names.len()),
-        [n1, n2] => println!(
+        [n] => say!("  {first}: {n} rows; {} variables", names.len()),
+        [n1, n2] => say!(
             "  {first}: {n1} rows; {second}: {n2} rows; {} variables",
             names.len()
         ),
         _ => {}
     }
-    println!(
+    say!(
         "  T² = {:.6}   F = {:.6} on ({}, {}) degrees of freedom   p = {:.4e}",
         test.t_squared(),
         test.f_statistic(),
@@ -233,7 +233,7 @@ fn print_table(
         trim(test.denominator_dof()),
         test.p_value()
     );
-    println!(
+    say!(
         "  at alpha = {}: {}",
         args.alpha,
         if rejected {
@@ -249,8 +249,8 @@ fn print_table(
         .max()
         .unwrap_or(8)
         .max(8);
-    println!();
-    println!(
+    say!();
+    say!(
         "  {:<width$}  {:>12}  {:>12}  {:>12}  {:>27}  {:>27}",
         "variable",
         "estimate",
@@ -260,7 +260,7 @@ fn print_table(
         format!("Bonferroni {level}")
     );
     for (iv, h) in intervals.iter().zip(test.hypothesized()) {
-        println!(
+        say!(
             "  {:<width$}  {:>12.6}  {:>12.6}  {:>12.6}  {:>27}  {:>27}",
             names[iv.variable],
             iv.estimate,
@@ -273,10 +273,10 @@ fn print_table(
             format!("[{:.6}, {:.6}]", iv.bonferroni.lower, iv.bonferroni.upper)
         );
     }
-    println!("  estimate: {estimate}");
+    say!("  estimate: {estimate}");
     if let Some(m) = scatter {
         let rule = m.suggested_rule(0.001).unwrap_or(Rule::Linear);
-        println!(
+        say!(
             "\nScatter equality (Box's M): M = {:.4}, χ² = {:.4} on {} dof, p = {:.3e}{}",
             m.statistic(),
             m.chi_square().value(),
@@ -294,7 +294,8 @@ fn print_table(
             }
         );
     }
-    println!("\nnote: {CAUTION}.");
+    say!();
+    note!("note: {CAUTION}.");
 }
 
 fn trim(v: f64) -> String {

@@ -203,7 +203,7 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
         let title = format!("Held-out rows of {}", args.data.display());
         crate::output::write_atomically(path, &check.to_svg(&title))?;
     }
-    println!(
+    note!(
         "fitted a {} model on {} rows × {} variables ({}); wrote {}",
         clap::ValueEnum::to_possible_value(&args.estimator)
             .map_or_else(String::new, |v| v.get_name().to_string()),
@@ -218,7 +218,7 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
         missing_cells,
     } = method
     {
-        println!(
+        note!(
             "EM: {missing_cells} empty cell(s) of {}; {iterations} iteration(s), {}",
             table.rows * p,
             if converged {
@@ -235,27 +235,27 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
         ..
     } = method
     {
-        println!(
+        note!(
             "MRCD: subset of {subset_size} rows; regularization {regularization:.4} (condition bound {condition_bound}); \
              the χ² reference of its distances is approximate, rough when variables are about as many as rows or more \
              (--hold-out gives p-values that do not rely on it); a flag is evidence for a closer look, not a verdict."
         );
     }
     if let Some(check) = check {
-        println!(
+        note!(
             "held out {} rows as calibration rows (kept in the model file)",
             check.held_out_rows
         );
         for level in check.levels() {
-            println!("calibration: {}", level.reading);
+            note!("calibration: {}", level.reading);
         }
         if let Some(path) = &args.calibration_chart {
-            println!(
+            note!(
                 "wrote the Q–Q chart of the held-out rows to {}",
                 path.display()
             );
         }
-        println!("note: the check is about these data; thresholds assume the model fits the data, and a flag is evidence, not a verdict.");
+        note!("note: the check is about these data; thresholds assume the model fits the data, and a flag is evidence, not a verdict.");
     }
     Ok(())
 }

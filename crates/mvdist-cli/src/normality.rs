@@ -51,28 +51,31 @@ pub fn run(args: &NormalityArgs) -> Result<(), CliError> {
     if args.json {
         let json = serde_json::to_string_pretty(&report)
             .map_err(|e| CliError(format!("cannot write the report as JSON: {e}")))?;
-        println!("{json}");
+        say!("{json}");
     } else {
-        print!("{}", render(&report, &table.names, &args.data));
+        say!(
+            "{}",
+            render(&report, &table.names, &args.data).trim_end_matches('\n')
+        );
         if let Some(check) = &report.calibration {
-            println!();
-            println!(
+            say!();
+            say!(
                 "F cutoffs on {} held-out rows (model fitted on the others):",
                 check.held_out_rows
             );
             for level in check.levels() {
-                println!("  {}", level.reading);
+                say!("  {}", level.reading);
             }
         }
         if let Some(why) = &report.calibration_not_computed {
-            println!();
-            println!("{why}");
+            say!();
+            say!("{why}");
         }
     }
     if let (Some(check), Some(path)) = (&report.calibration, &args.calibration_chart) {
         let title = format!("Held-out rows of {}", args.data.display());
         crate::output::write_atomically(path, &check.to_svg(&title))?;
-        eprintln!(
+        note!(
             "mvdist: wrote the Q–Q chart of the held-out rows to {}",
             path.display()
         );

@@ -6,7 +6,7 @@ use crate::table::{layout_for, missing_value_error, open, parse_record, read_err
 use crate::CliError;
 use mvdist::model_file::ModelFile;
 use mvdist::{ContributionOrder, EmpiricalPValue, Reference, RowOrigin};
-use std::io::{IsTerminal, Write};
+use std::io::IsTerminal;
 use std::path::PathBuf;
 
 #[derive(Clone, Copy, Debug, PartialEq, clap::ValueEnum)]
@@ -88,7 +88,7 @@ fn for_each_row(
         args.label.as_deref(),
     )?;
     let size = std::fs::metadata(&args.data).map(|m| m.len()).unwrap_or(0);
-    let progress = std::io::stderr().is_terminal() && size > 64 << 20;
+    let progress = std::io::stderr().is_terminal() && size > 64 << 20 && !crate::output::quiet();
     let mut record = csv::StringRecord::new();
     let mut values = Vec::with_capacity(layout.fields.len());
     let mut count = 0u64;
@@ -340,8 +340,9 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         Ok(())
     })?;
     out.finish()?;
+    crate::output::record_flags(flagged > 0);
     if incomplete > 0 {
-        eprintln!("mvdist: skipped {incomplete} incomplete row(s); they are in the output with status \"incomplete\"");
+        note!("mvdist: skipped {incomplete} incomplete row(s); they are in the output with status \"incomplete\"");
     }
     let basis = match &calibration {
         None => format!("{} reference", reference.kind().name()),
@@ -352,7 +353,7 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
             args.delta.unwrap_or(0.05)
         ),
     };
-    println!(
+    note!(
         "scored {} rows against {} ({basis}, alpha {}, adjustment {}): {flagged} flagged; wrote {}",
         row - incomplete,
         args.model.display(),
@@ -362,9 +363,9 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
         args.out.display()
     );
     if calibration.is_some() {
-        println!("note: held-out p-values assume the scored rows are exchangeable with the calibration rows (same population and process state); a flag is evidence for a closer look, not a verdict.");
+        note!("note: held-out p-values assume the scored rows are exchangeable with the calibration rows (same population and process state); a flag is evidence for a closer look, not a verdict.");
     } else {
-        println!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
+        note!("note: flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict.");
     }
     Ok(())
 }

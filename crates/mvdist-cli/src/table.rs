@@ -30,9 +30,18 @@ pub struct Layout {
     pub header_len: usize,
 }
 
-pub fn open(path: &Path) -> Result<(csv::Reader<File>, Vec<String>), CliError> {
-    let file =
-        File::open(path).map_err(|e| CliError(format!("{}: cannot open: {e}", path.display())))?;
+/// A source of CSV text: a file, or standard input for the path `-`.
+pub type Source = Box<dyn std::io::Read>;
+
+pub fn open(path: &Path) -> Result<(csv::Reader<Source>, Vec<String>), CliError> {
+    let file: Source = if crate::output::is_stdio(path) {
+        Box::new(std::io::stdin().lock())
+    } else {
+        Box::new(
+            File::open(path)
+                .map_err(|e| CliError(format!("{}: cannot open: {e}", path.display())))?,
+        )
+    };
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(true)
         .flexible(true)
@@ -262,7 +271,7 @@ pub fn read_table_named(
 
 fn read_rows(
     path: &Path,
-    mut reader: csv::Reader<File>,
+    mut reader: csv::Reader<Source>,
     layout: Layout,
     skip_incomplete: bool,
     keep_gaps: bool,

@@ -46,7 +46,7 @@ fn fit_iris(dir: &TempDir) -> (PathBuf, PathBuf) {
         .args(["--label", "flower"])
         .assert()
         .success()
-        .stdout(predicate::str::contains("150 rows × 4 variables"));
+        .stderr(predicate::str::contains("150 rows × 4 variables"));
     (data, model)
 }
 
@@ -74,8 +74,8 @@ fn fit_then_score_round_trip_matches_the_library() {
         .args(["--label", "flower", "--alpha", "0.05"])
         .assert()
         .success()
-        .stdout(predicate::str::contains("scored 150 rows"))
-        .stdout(predicate::str::contains("not a verdict"));
+        .stderr(predicate::str::contains("scored 150 rows"))
+        .stderr(predicate::str::contains("not a verdict"));
     let header = std::fs::read_to_string(&out).unwrap();
     assert!(header.starts_with("row,flower,d2,p_value,flag,top_variable,top_share,status\n"));
     let rows = read_scores(&out);
@@ -430,7 +430,7 @@ fn compare_means_matches_the_library() {
             lib.t_squared()
         )))
         .stdout(predicate::str::contains("Box's M"))
-        .stdout(predicate::str::contains("not proof"));
+        .stderr(predicate::str::contains("not proof"));
     // JSON for each two-sample kind.
     for (flag, lib) in [
         (None, lib.clone()),
@@ -606,9 +606,9 @@ fn chart_writes_points_and_svg_that_match_the_library() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains("Phase I: 50 rows × 4 variables"))
-        .stdout(predicate::str::contains("Phase II: 50 new points"))
-        .stdout(predicate::str::contains("prompt to investigate"));
+        .stderr(predicate::str::contains("Phase I: 50 rows × 4 variables"))
+        .stderr(predicate::str::contains("Phase II: 50 new points"))
+        .stderr(predicate::str::contains("prompt to investigate"));
     let settings = PhaseOneOptions::default()
         .with_false_alarm(FalseAlarmRate::from_average_run_length(200.0).unwrap())
         .with_removal(SignalRemoval::RefitUntilClean { max_rounds: 10 })
@@ -649,7 +649,7 @@ fn chart_writes_points_and_svg_that_match_the_library() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains("10 subgroups of 5 rows"));
+        .stderr(predicate::str::contains("10 subgroups of 5 rows"));
     let (_, rows) = read_points(&out2);
     assert_eq!(rows.len(), 10);
     assert_eq!((rows[1][2].as_str(), rows[1][3].as_str()), ("6", "10"));
@@ -764,11 +764,11 @@ fn classify_matches_the_library_and_reports_leave_one_out() {
             .arg(&out)
             .assert()
             .success()
-            .stdout(predicate::str::contains("leave-one-out confusion matrix"))
-            .stdout(predicate::str::contains("versicolor"))
-            .stdout(predicate::str::contains("resubstitution error rate"))
-            .stdout(predicate::str::contains("accuracy on the 150 rows"))
-            .stdout(predicate::str::contains("not a verdict"));
+            .stderr(predicate::str::contains("leave-one-out confusion matrix"))
+            .stderr(predicate::str::contains("versicolor"))
+            .stderr(predicate::str::contains("resubstitution error rate"))
+            .stderr(predicate::str::contains("accuracy on the 150 rows"))
+            .stderr(predicate::str::contains("not a verdict"));
         let text = std::fs::read_to_string(&out).unwrap();
         assert!(text
             .starts_with("row,group,posterior,typicality,d2_setosa,d2_versicolor,d2_virginica\n"));
@@ -801,7 +801,7 @@ fn classify_matches_the_library_and_reports_leave_one_out() {
         .arg(dir.path().join("again.csv"))
         .assert()
         .success()
-        .stdout(predicate::str::contains(
+        .stderr(predicate::str::contains(
             "error rate 0.0200 (3 of 150 rows)",
         ));
 }
@@ -826,10 +826,10 @@ fn classify_flags_no_group_and_unknown_labels() {
         .arg(&out)
         .assert()
         .success()
-        .stdout(predicate::str::contains("1 row(s) atypical of every group"))
-        .stdout(predicate::str::contains("accuracy on the 2 rows"))
-        .stdout(predicate::str::contains("'rose'"))
-        .stdout(predicate::str::contains("first at line 4"));
+        .stderr(predicate::str::contains("1 row(s) atypical of every group"))
+        .stderr(predicate::str::contains("accuracy on the 2 rows"))
+        .stderr(predicate::str::contains("'rose'"))
+        .stderr(predicate::str::contains("first at line 4"));
     let rows = read_scores(&out);
     assert_eq!(rows[0][1], "setosa");
     assert_eq!(rows[1][1], "virginica");
@@ -981,7 +981,7 @@ fn fit_with_each_estimator_then_score() {
             .args(&extra)
             .assert()
             .success()
-            .stdout(predicate::str::contains(format!(
+            .stderr(predicate::str::contains(format!(
                 "fitted a {estimator} model on 150 rows"
             )));
         let text = std::fs::read_to_string(&model).unwrap();
@@ -1003,7 +1003,7 @@ fn fit_with_each_estimator_then_score() {
             .args(["--label", "flower"])
             .assert()
             .success()
-            .stdout(predicate::str::contains(format!("({reference} reference")));
+            .stderr(predicate::str::contains(format!("({reference} reference")));
         let rows = read_scores(&out);
         assert_eq!(rows.len(), 150);
         // Scores equal the library's for the model as saved.
@@ -1106,9 +1106,9 @@ fn fit_mrcd_with_more_variables_than_rows() {
         .args(["--estimator", "mrcd"])
         .assert()
         .success()
-        .stdout(predicate::str::contains("fitted a mrcd model on 16 rows"))
-        .stdout(predicate::str::contains("MRCD: subset of 12 rows"))
-        .stdout(predicate::str::contains("not a verdict"));
+        .stderr(predicate::str::contains("fitted a mrcd model on 16 rows"))
+        .stderr(predicate::str::contains("MRCD: subset of 12 rows"))
+        .stderr(predicate::str::contains("not a verdict"));
     let saved = std::fs::read_to_string(&model).unwrap();
     assert!(saved.contains("\"kind\": \"regularized_mcd\""), "{saved}");
     let out = dir.path().join("scores.csv");
@@ -1121,7 +1121,7 @@ fn fit_mrcd_with_more_variables_than_rows() {
         .arg("--in-sample")
         .assert()
         .success()
-        .stdout(predicate::str::contains("(chi-square reference"));
+        .stderr(predicate::str::contains("(chi-square reference"));
     let rows = read_scores(&out);
     let d2: Vec<f64> = rows.iter().map(|r| r[1].parse().unwrap()).collect();
     let clean_max = d2[..14].iter().cloned().fold(0.0, f64::max);
@@ -1361,10 +1361,10 @@ fn robust_fit_and_in_sample_scores_on_stack_loss() {
         .args(["--in-sample", "--alpha", "0.025"])
         .assert()
         .success()
-        .stdout(predicate::str::contains(
+        .stderr(predicate::str::contains(
             "(simulated Wishart F (reweighted MCD) reference",
         ))
-        .stdout(predicate::str::contains("3 flagged"));
+        .stderr(predicate::str::contains("3 flagged"));
     let (header, rows) = read_points(&out);
     let flag = header.iter().position(|h| h == "flag").unwrap();
     let flagged: Vec<usize> = rows
@@ -1402,9 +1402,9 @@ fn held_out_calibration_rows_round_trip() {
         .arg(&chart)
         .assert()
         .success()
-        .stdout(predicate::str::contains("105 rows × 4 variables"))
-        .stdout(predicate::str::contains("held out 45 rows"))
-        .stdout(predicate::str::contains(
+        .stderr(predicate::str::contains("105 rows × 4 variables"))
+        .stderr(predicate::str::contains("held out 45 rows"))
+        .stderr(predicate::str::contains(
             "calibration: the fitted F cutoff at 5.0%",
         ));
     assert!(std::fs::read_to_string(&chart).unwrap().contains("<circle"));
@@ -1427,7 +1427,7 @@ fn held_out_calibration_rows_round_trip() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains("held-out p-values from 45 rows"));
+        .stderr(predicate::str::contains("held-out p-values from 45 rows"));
     let rows = read_scores(&out);
     let f = common::fixture("iris_covariance.json");
     let x = common::matrix(&f["data"]);
@@ -1456,7 +1456,7 @@ fn held_out_calibration_rows_round_trip() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains("calibration-conditional"));
+        .stderr(predicate::str::contains("calibration-conditional"));
     let out2 = dir.path().join("s2.csv");
     for (extra, message) in [
         (
@@ -1520,8 +1520,8 @@ fn rows_with_gaps_fit_by_em_and_score_on_observed_variables() {
         .args(["--estimator", "em"])
         .assert()
         .success()
-        .stdout(predicate::str::contains("EM: 3 empty cell(s) of 30"))
-        .stdout(predicate::str::contains("converged"));
+        .stderr(predicate::str::contains("EM: 3 empty cell(s) of 30"))
+        .stderr(predicate::str::contains("converged"));
     let out = dir.path().join("s.csv");
     mvdist()
         .arg("score")
@@ -1637,11 +1637,11 @@ fn component_chart_writes_both_statistics_that_match_the_library() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains(
+        .stderr(predicate::str::contains(
             "Phase I: 400 rows × 30 variables; 5 components",
         ))
-        .stdout(predicate::str::contains("Phase II: 169 new rows"))
-        .stdout(predicate::str::contains("prompt to investigate"));
+        .stderr(predicate::str::contains("Phase II: 169 new rows"))
+        .stderr(predicate::str::contains("prompt to investigate"));
     let options = ComponentOptions::default()
         .with_components(ComponentCount::Fixed { components: 5 })
         .with_false_alarm(FalseAlarmRate::per_point(0.01).unwrap());
@@ -1747,7 +1747,7 @@ fn shift_charts_match_the_library_and_signal_after_the_switch() {
     for kind in ["mewma", "mcusum"] {
         let h = if kind == "mewma" { 12.0 } else { 8.0 };
         let assert = run(&["--kind", kind, "--limit", &h.to_string(), "--shift", "1"]);
-        let stdout = String::from_utf8(assert.get_output().stdout.clone()).unwrap();
+        let stdout = String::from_utf8(assert.get_output().stderr.clone()).unwrap();
         assert!(stdout.contains("ARL at a shift of size δ = 1"), "{stdout}");
         assert!(stdout.contains("not a verdict"), "{stdout}");
         assert!(
@@ -1801,7 +1801,7 @@ fn shift_charts_match_the_library_and_signal_after_the_switch() {
 
     // A designed limit: the library's design with the same runs and seed.
     let assert = run(&["--kind", "mewma", "--arl", "30", "--smoothing", "0.2"]);
-    let stdout = String::from_utf8(assert.get_output().stdout.clone()).unwrap();
+    let stdout = String::from_utf8(assert.get_output().stderr.clone()).unwrap();
     assert!(
         stdout.contains("designed for an in-control ARL of 30.0"),
         "{stdout}"
@@ -1848,7 +1848,7 @@ fn shift_chart_screens_history_and_refuses_wrong_options() {
         ])
         .assert()
         .success()
-        .stdout(predicate::str::contains("estimated from 40 of 43 rows"));
+        .stderr(predicate::str::contains("estimated from 40 of 43 rows"));
     let (_, rows) = read_points(&out);
     assert!(rows[..40].iter().all(|r| r[3] == "in_estimate"));
     assert!(
@@ -1896,4 +1896,120 @@ fn shift_chart_screens_history_and_refuses_wrong_options() {
         let refs: Vec<&std::ffi::OsStr> = args.iter().map(|s| s.as_os_str()).collect();
         fails(&refs, &bad, message);
     }
+}
+
+/// `-` reads standard input and writes standard output: `fit - --out -`
+/// then `score MODEL - --out -` give byte for byte the files that the
+/// path-based commands write; notes go to standard error and `--quiet`
+/// silences them; `--status-on-flags` exits with 3 when a row is flagged
+/// and 0 when none is.
+#[test]
+fn standard_streams_quiet_and_flag_status() {
+    let dir = TempDir::new().unwrap();
+    let (data, model) = fit_iris(&dir);
+    let csv = std::fs::read(&data).unwrap();
+    let piped_model = mvdist()
+        .args(["fit", "-", "--out", "-", "--label", "flower"])
+        .write_stdin(csv.clone())
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("150 rows × 4 variables"))
+        .get_output()
+        .stdout
+        .clone();
+    assert_eq!(piped_model, std::fs::read(&model).unwrap());
+    let scores = dir.path().join("scores.csv");
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .arg("--out")
+        .arg(&scores)
+        .args(["--label", "flower"])
+        .assert()
+        .success();
+    let piped = mvdist()
+        .arg("score")
+        .arg(&model)
+        .args(["-", "--out", "-", "--label", "flower", "--quiet"])
+        .write_stdin(csv.clone())
+        .assert()
+        .success()
+        .stderr("")
+        .get_output()
+        .stdout
+        .clone();
+    assert_eq!(piped, std::fs::read(&scores).unwrap());
+    // The model itself from standard input.
+    let from_stdin_model = mvdist()
+        .args(["score", "-"])
+        .arg(&data)
+        .args(["--out", "-", "--label", "flower", "--quiet"])
+        .write_stdin(std::fs::read(&model).unwrap())
+        .assert()
+        .success()
+        .get_output()
+        .stdout
+        .clone();
+    assert_eq!(from_stdin_model, piped);
+
+    // Exit status 3 only with the option and only when a row is flagged.
+    let score = |alpha: &str, status: bool| {
+        let mut cmd = mvdist();
+        cmd.arg("score").arg(&model).arg(&data).args([
+            "--out", "-", "--label", "flower", "--quiet", "--alpha", alpha,
+        ]);
+        if status {
+            cmd.arg("--status-on-flags");
+        }
+        cmd.assert()
+    };
+    score("0.05", true).code(3);
+    score("0.05", false).code(0);
+    score("1e-300", true).code(0);
+}
+
+/// Writing to a pipe whose reader has gone ends quietly with status 0:
+/// no panic message, no error.
+#[test]
+fn closed_pipe_ends_quietly() {
+    use std::io::Read;
+    use std::process::Stdio;
+    let dir = TempDir::new().unwrap();
+    let (_, model) = fit_iris(&dir);
+    // 60 000 rows (generated from a fixed formula): the scores are far more
+    // than a pipe buffer holds.
+    let mut text = String::from("flower,sepal_length,sepal_width,petal_length,petal_width\n");
+    for i in 0..60_000u32 {
+        let t = f64::from(i);
+        text += &format!(
+            "r{i},{:.3},{:.3},{:.3},{:.3}\n",
+            5.8 + 0.8 * (0.37 * t).sin(),
+            3.0 + 0.4 * (0.53 * t).cos(),
+            3.7 + 1.7 * (0.11 * t).sin(),
+            1.2 + 0.7 * (0.07 * t).cos()
+        );
+    }
+    let data = write(dir.path(), "many.csv", &text);
+    let mut child = std::process::Command::new(assert_cmd::cargo::cargo_bin("mvdist"))
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .args(["--out", "-", "--label", "flower"])
+        .stdout(Stdio::piped())
+        .stderr(Stdio::piped())
+        .spawn()
+        .unwrap();
+    let mut stdout = child.stdout.take().unwrap();
+    let mut first = [0u8; 64];
+    stdout.read_exact(&mut first).unwrap();
+    assert!(first.starts_with(b"row,flower,d2"));
+    drop(stdout);
+    let out = child.wait_with_output().unwrap();
+    let stderr = String::from_utf8_lossy(&out.stderr);
+    assert_eq!(out.status.code(), Some(0), "{stderr}");
+    assert!(
+        !stderr.contains("panicked") && !stderr.contains("error"),
+        "{stderr}"
+    );
 }
