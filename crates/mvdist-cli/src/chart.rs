@@ -43,6 +43,9 @@ pub enum ResidualLimitArg {
 
 #[derive(clap::Args)]
 pub struct ChartArgs {
+    /// Print a JSON summary of the run on standard output (not with --out -).
+    #[arg(long)]
+    pub json: bool,
     /// What is charted.
     #[arg(long, value_enum, default_value = "t2")]
     pub kind: ChartKind,
@@ -142,6 +145,7 @@ fn rate(args: &ChartArgs) -> Result<FalseAlarmRate, CliError> {
 }
 
 pub fn run(args: &ChartArgs) -> Result<(), CliError> {
+    crate::output::check_json_target(args.json, &args.out)?;
     let rate = rate(args)?;
     let shift_only = args.smoothing.is_some()
         || args.asymptotic_covariance
@@ -400,17 +404,34 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             );
         }
     }
+    let count = |pts: &[ChartPoint]| pts.iter().filter(|p| p.signal).count();
     finish_report(
         signals.len(),
         args,
         "the limits assume independent, multivariate normal in-control data",
-    );
-    Ok(())
+        serde_json::json!({
+            "alpha": rate.alpha(),
+            "subgroup_size": size,
+            "phase_one_points": chart.phase_one_points().len(),
+            "in_estimate": chart.in_estimate(),
+            "removed": removed,
+            "phase_one_limit": chart.upper_limit(RowOrigin::InSample)?,
+            "phase_two_limit": phase_two_ucl,
+            "phase_one_signals": count(chart.phase_one_points()),
+            "phase_two_points": new_points.len(),
+            "phase_two_signals": count(&new_points),
+        }),
+    )
 }
 
 /// The end of every chart report: how many signals were not listed, the
 /// files written, and the caution.
-pub(crate) fn finish_report(signals: usize, args: &ChartArgs, assumption: &str) {
+pub(crate) fn finish_report(
+    signals: usize,
+    args: &ChartArgs,
+    assumption: &str,
+    details: serde_json::Value,
+) -> Result<(), CliError> {
     crate::output::record_flags(signals > 0);
     if signals > 12 {
         note!(
@@ -426,7 +447,27 @@ pub(crate) fn finish_report(signals: usize, args: &ChartArgs, assumption: &str) 
             .as_ref()
             .map_or_else(String::new, |s| format!(" and {}", s.display()))
     );
-    note!("note: {assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people.");
+    let caution = format!("{assumption}; a signal is a prompt to investigate, not a verdict — decisions belong to local procedures and qualified people");
+    note!("note: {caution}.");
+    if args.json {
+        let kind = clap::ValueEnum::to_possible_value(&args.kind)
+            .map_or_else(String::new, |v| v.get_name().to_string());
+        let mut summary = serde_json::json!({
+            "command": "chart",
+            "kind": kind,
+            "data": args.data.display().to_string(),
+            "new": args.new.as_ref().map(|p| p.display().to_string()),
+            "signals": signals,
+            "out": args.out.display().to_string(),
+            "svg": args.svg.as_ref().map(|p| p.display().to_string()),
+            "caution": caution,
+        });
+        if let (Some(all), serde_json::Value::Object(extra)) = (summary.as_object_mut(), details) {
+            all.extend(extra);
+        }
+        crate::output::print_json(&summary)?;
+    }
+    Ok(())
 }
 
 /// The rows of `--new`, read with the chart's variables (`None` without

@@ -225,10 +225,37 @@ pub fn run(args: &ChartArgs, rate: FalseAlarmRate) -> Result<(), CliError> {
             },
         );
     }
+    let count = |pts: &[ComponentPoint], q: bool| {
+        pts.iter()
+            .filter(|p| {
+                if q {
+                    p.residual_signal
+                } else {
+                    p.t_squared_signal
+                }
+            })
+            .count()
+    };
     finish_report(
         signals.len(),
         args,
         "the limits assume independent, multivariate normal in-control rows (autocorrelated processes signal far more often)",
-    );
-    Ok(())
+        serde_json::json!({
+            "alpha": rate.alpha(),
+            "components": model.components(),
+            "explained_fraction": explained,
+            "scaling": if model.scaling() == VariableScaling::UnitVariance { "unit_variance" } else { "centred" },
+            "model_rows": model.observations(),
+            "removed": removed,
+            "t2_limit_phase_one": chart.t_squared_limit(true)?,
+            "t2_limit_phase_two": chart.t_squared_limit(false)?,
+            "q_limit": q_limit,
+            "phase_one_points": chart.phase_one_points().len(),
+            "phase_one_t2_signals": count(chart.phase_one_points(), false),
+            "phase_one_q_signals": count(chart.phase_one_points(), true),
+            "phase_two_points": new_points.len(),
+            "phase_two_t2_signals": count(&new_points, false),
+            "phase_two_q_signals": count(&new_points, true),
+        }),
+    )
 }

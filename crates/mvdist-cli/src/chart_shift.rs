@@ -366,10 +366,25 @@ pub fn run(args: &ChartArgs) -> Result<(), CliError> {
             top_variables(pt, args.top, &names)
         );
     }
+    let first_index = |pts: &[ShiftPoint]| pts.iter().find(|p| p.signal).map(|p| p.index + 1);
+    let details = serde_json::json!({
+        "scheme": scheme,
+        "in_control": source,
+        "limit": limit,
+        "designed_for_average_run_length": designed,
+        "in_control_run_length": in_control,
+        "shifted_run_lengths": shifted,
+        "phase_one_points": first.len(),
+        "phase_one_signals": count(&first),
+        "phase_one_first_signal": first_index(&first),
+        "phase_two_points": second.len(),
+        "phase_two_signals": count(&second),
+        "phase_two_first_signal": first_index(&second),
+    });
     finish_report(
         signals.len(),
         args,
         "the limit and run lengths assume independent, multivariate normal in-control rows with known mean and covariance (an estimated mean and covariance make the actual in-control run length random and often shorter; autocorrelated processes signal far more often); the Phase I rows also made the estimate, so their chart is only a retrospective look",
-    );
-    Ok(())
+        details,
+    )
 }

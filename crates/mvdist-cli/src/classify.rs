@@ -33,6 +33,9 @@ pub enum PriorChoice {
 
 #[derive(clap::Args)]
 pub struct ClassifyArgs {
+    /// Print a JSON summary of the run on standard output (not with --out -).
+    #[arg(long)]
+    pub json: bool,
     /// CSV file of labelled training rows (header row first).
     #[arg(long)]
     pub train: PathBuf,
@@ -186,6 +189,7 @@ fn print_confusion(title: &str, groups: &[String], m: &ConfusionMatrix) {
 }
 
 pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
+    crate::output::check_json_target(args.json, &args.out)?;
     if let Some(level) = args.no_group_below {
         if !(level > 0.0 && level < 1.0) {
             return Err(CliError(format!(
@@ -333,6 +337,22 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
         args.out.display()
     );
     crate::output::record_flags(no_group > 0);
+    if args.json {
+        crate::output::print_json(&serde_json::json!({
+            "command": "classify",
+            "train": args.train.display().to_string(),
+            "training_rows": train_labels.len(),
+            "data": args.data.display().to_string(),
+            "rows": out.len(),
+            "groups": groups,
+            "rule": if args.rule == RuleChoice::Linear { "linear" } else { "quadratic" },
+            "priors": if args.priors == PriorChoice::Equal { "equal" } else { "proportional" },
+            "no_group_level": args.no_group_below,
+            "rows_without_group": args.no_group_below.map(|_| no_group),
+            "out": args.out.display().to_string(),
+            "caution": "posteriors and typicality assume each group is multivariate normal with the modelled scatter; an assignment or a \"no group\" is evidence for review, not a verdict",
+        }))?;
+    }
     if let Some(level) = args.no_group_below {
         note!("{no_group} row(s) atypical of every group at level {level}: their group is left empty for review");
     }

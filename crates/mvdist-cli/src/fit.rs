@@ -31,6 +31,9 @@ pub enum EstimatorChoice {
 
 #[derive(clap::Args)]
 pub struct FitArgs {
+    /// Print a JSON summary of the run on standard output (not with --out -).
+    #[arg(long)]
+    pub json: bool,
     /// CSV file of reference rows (header row first).
     pub data: PathBuf,
     /// Where to write the model file (JSON).
@@ -120,6 +123,7 @@ pub fn explain_fit_error(path: &Path, names: &[String], rows: usize, e: Error) -
 }
 
 pub fn run(args: &FitArgs) -> Result<(), CliError> {
+    crate::output::check_json_target(args.json, &args.out)?;
     let is_em = matches!(args.estimator, EstimatorChoice::Em);
     if is_em && args.skip_incomplete {
         return Err(CliError(
@@ -203,10 +207,26 @@ pub fn run(args: &FitArgs) -> Result<(), CliError> {
         let title = format!("Held-out rows of {}", args.data.display());
         crate::output::write_atomically(path, &check.to_svg(&title))?;
     }
+    let estimator = clap::ValueEnum::to_possible_value(&args.estimator)
+        .map_or_else(String::new, |v| v.get_name().to_string());
+    if args.json {
+        crate::output::print_json(&serde_json::json!({
+            "command": "fit",
+            "estimator": estimator,
+            "rows": fitted,
+            "variables": table.names,
+            "fit": method,
+            "out": args.out.display().to_string(),
+            "calibration": check.as_ref().map(|c| serde_json::json!({
+                "held_out_rows": c.held_out_rows,
+                "readings": c.levels().iter().map(|l| l.reading.clone()).collect::<Vec<_>>(),
+            })),
+            "caution": "thresholds assume the model fits the data; a flag is evidence for a closer look, not a verdict",
+        }))?;
+    }
     note!(
         "fitted a {} model on {} rows × {} variables ({}); wrote {}",
-        clap::ValueEnum::to_possible_value(&args.estimator)
-            .map_or_else(String::new, |v| v.get_name().to_string()),
+        estimator,
         fitted,
         p,
         table.names.join(", "),

@@ -75,6 +75,26 @@ pub fn say(line: std::fmt::Arguments<'_>) {
     let _ = out.write_fmt(line).and_then(|()| out.write_all(b"\n"));
 }
 
+/// Refuses `--json` together with `--out -`: both would go to standard
+/// output.
+pub fn check_json_target(json: bool, out: &Path) -> Result<(), CliError> {
+    if json && is_stdio(out) {
+        return Err(CliError(
+            "--json and --out - both write standard output; write the results to a file, or drop --json"
+                .into(),
+        ));
+    }
+    Ok(())
+}
+
+/// Prints a run's summary as JSON on standard output (`--json`).
+pub fn print_json(summary: &serde_json::Value) -> Result<(), CliError> {
+    let text = serde_json::to_string_pretty(summary)
+        .map_err(|e| CliError(format!("cannot write the summary as JSON: {e}")))?;
+    say(format_args!("{text}"));
+    Ok(())
+}
+
 /// Reads all of standard input.
 pub fn read_stdin() -> Result<Vec<u8>, CliError> {
     let mut bytes = Vec::new();

@@ -21,6 +21,9 @@ pub enum AdjustChoice {
 
 #[derive(clap::Args)]
 pub struct ScoreArgs {
+    /// Print a JSON summary of the run on standard output (not with --out -).
+    #[arg(long)]
+    pub json: bool,
     /// Model file written by `mvdist fit`.
     pub model: PathBuf,
     /// CSV file of rows to score; it must have the model's columns.
@@ -130,6 +133,7 @@ fn for_each_row(
 }
 
 pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
+    crate::output::check_json_target(args.json, &args.out)?;
     if !(args.alpha > 0.0 && args.alpha < 1.0) {
         return Err(CliError(format!(
             "--alpha {} is not between 0 and 1",
@@ -362,6 +366,27 @@ pub fn run(args: &ScoreArgs) -> Result<(), CliError> {
             .map_or_else(String::new, |v| v.get_name().to_string()),
         args.out.display()
     );
+    let caution = if calibration.is_some() {
+        "held-out p-values assume the scored rows are exchangeable with the calibration rows (same population and process state); a flag is evidence for a closer look, not a verdict"
+    } else {
+        "flags assume the reference rows are multivariate normal and the model fits them; a flag is evidence for a closer look, not a verdict"
+    };
+    if args.json {
+        crate::output::print_json(&serde_json::json!({
+            "command": "score",
+            "model": args.model.display().to_string(),
+            "data": args.data.display().to_string(),
+            "rows": row - incomplete,
+            "incomplete_rows": incomplete,
+            "flagged": flagged,
+            "alpha": args.alpha,
+            "adjustment": clap::ValueEnum::to_possible_value(&args.adjust)
+                .map_or_else(String::new, |v| v.get_name().to_string()),
+            "basis": basis,
+            "out": args.out.display().to_string(),
+            "caution": caution,
+        }))?;
+    }
     if calibration.is_some() {
         note!("note: held-out p-values assume the scored rows are exchangeable with the calibration rows (same population and process state); a flag is evidence for a closer look, not a verdict.");
     } else {

@@ -2013,3 +2013,77 @@ fn closed_pipe_ends_quietly() {
         "{stderr}"
     );
 }
+
+/// `--json` prints a summary on standard output whose numbers agree with
+/// the files written; it is refused with `--out -`.
+#[test]
+fn json_summaries_agree_with_the_outputs() {
+    let dir = TempDir::new().unwrap();
+    let data = iris_csv(dir.path());
+    let model = dir.path().join("model.json");
+    let fit = json_of(
+        mvdist()
+            .arg("fit")
+            .arg(&data)
+            .arg("--out")
+            .arg(&model)
+            .args(["--label", "flower", "--json", "--quiet"]),
+    );
+    assert_eq!(fit["command"], "fit");
+    assert_eq!(fit["rows"], 150);
+    assert_eq!(fit["variables"].as_array().unwrap().len(), 4);
+    assert!(fit["caution"].as_str().unwrap().contains("not a verdict"));
+    let scores = dir.path().join("scores.csv");
+    let score = json_of(
+        mvdist()
+            .arg("score")
+            .arg(&model)
+            .arg(&data)
+            .arg("--out")
+            .arg(&scores)
+            .args(["--label", "flower", "--alpha", "0.05", "--json"]),
+    );
+    let flags = read_scores(&scores)
+        .iter()
+        .filter(|r| r[4] == "true")
+        .count();
+    assert_eq!(score["flagged"], flags as u64);
+    assert_eq!(score["rows"], 150);
+    let (history, _) = iris_rows_csv(dir.path(), "history.csv", &(0..35).collect::<Vec<_>>());
+    let (new, _) = iris_rows_csv(dir.path(), "new.csv", &(35..65).collect::<Vec<_>>());
+    let points = dir.path().join("points.csv");
+    let chart = json_of(
+        mvdist()
+            .arg("chart")
+            .arg(&history)
+            .arg("--new")
+            .arg(&new)
+            .arg("--out")
+            .arg(&points)
+            .args([
+                "--label", "flower", "--kind", "mewma", "--limit", "12", "--runs", "200",
+            ])
+            .arg("--json"),
+    );
+    let (_, rows) = read_points(&points);
+    let phase_two = rows
+        .iter()
+        .filter(|r| r[0] == "2" && r[7] == "true")
+        .count();
+    assert_eq!(chart["kind"], "mewma");
+    assert_eq!(chart["phase_two_signals"], phase_two as u64);
+    assert_eq!(chart["limit"], 12.0);
+    assert_eq!(chart["scheme"]["kind"], "mewma");
+    assert!(chart["in_control_run_length"]["average"].as_f64().unwrap() > 1.0);
+    mvdist()
+        .arg("score")
+        .arg(&model)
+        .arg(&data)
+        .args(["--out", "-", "--label", "flower", "--json"])
+        .assert()
+        .code(1)
+        .stdout("")
+        .stderr(predicate::str::contains(
+            "--json and --out - both write standard output",
+        ));
+}
