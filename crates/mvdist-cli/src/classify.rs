@@ -3,10 +3,8 @@
 
 use crate::fit::explain_fit_error;
 use crate::output::{csv_field, number_field, PendingFile};
-use crate::table::{
-    layout, layout_for, missing_value_error, open, parse_record, read_error, ColumnChoice,
-    RowOutcome,
-};
+use crate::rows::RowReader;
+use crate::table::{layout, layout_for, missing_value_error, ColumnChoice, RowOutcome};
 use crate::CliError;
 use mvdist::classification::{
     Classifier, ClassifierOptions, ConfusionMatrix, LeaveOneOut, PredictOptions, Predictions,
@@ -83,30 +81,23 @@ struct LabelledRows {
 /// are errors naming the line and column.
 fn read_rows(
     path: &Path,
-    reader: &mut csv::Reader<crate::table::Source>,
+    reader: &mut RowReader,
     layout: &crate::table::Layout,
 ) -> Result<LabelledRows, CliError> {
     let mut data = Vec::new();
     let mut labels = Vec::new();
     let mut lines = Vec::new();
-    let mut record = csv::StringRecord::new();
     let mut values = Vec::with_capacity(layout.fields.len());
-    while reader
-        .read_record(&mut record)
-        .map_err(|e| read_error(path, e))?
-    {
-        let line = record.position().map_or(0, |p| p.line());
-        if let RowOutcome::Missing(k) = parse_record(path, &record, layout, &mut values)? {
-            return Err(missing_value_error(path, line, &layout.names[k]));
+    while let Some((line, outcome)) = reader.next_row(path, layout, &mut values)? {
+        if let RowOutcome::Missing(k) = outcome {
+            return Err(missing_value_error(
+                &reader.place(path, line),
+                &layout.names[k],
+            ));
         }
         data.extend_from_slice(&values);
         lines.push(line);
-        labels.push(
-            layout
-                .label
-                .and_then(|l| record.get(l))
-                .map(|s| s.trim().to_string()),
-        );
+        labels.push(reader.label(layout).map(|s| s.trim().to_string()));
     }
     if labels.is_empty() {
         return Err(CliError(format!(
@@ -198,7 +189,7 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
         }
     }
     // Training rows.
-    let (mut reader, headers) = open(&args.train)?;
+    let (mut reader, headers) = RowReader::open(&args.train)?;
     let choice = ColumnChoice {
         columns: args.columns.clone(),
         exclude: args.exclude.clone(),
@@ -262,7 +253,7 @@ pub fn run(args: &ClassifyArgs) -> Result<(), CliError> {
     }
 
     // Rows to classify.
-    let (mut reader, headers) = open(&args.data)?;
+    let (mut reader, headers) = RowReader::open(&args.data)?;
     let has_label = headers.iter().any(|h| h == &args.label);
     let data_layout = layout_for(
         &args.data,

@@ -47,6 +47,7 @@ mod compare_means;
 mod fit;
 mod normality;
 mod output;
+mod rows;
 mod score;
 mod table;
 

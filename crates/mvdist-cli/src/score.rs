@@ -2,7 +2,8 @@
 //! for every row of a CSV file, streamed.
 
 use crate::output::{csv_field, load_model_file, number_field, PendingFile};
-use crate::table::{layout_for, missing_value_error, open, parse_record, read_error, RowOutcome};
+use crate::rows::RowReader;
+use crate::table::{layout_for, missing_value_error, RowOutcome};
 use crate::CliError;
 use mvdist::model_file::ModelFile;
 use mvdist::{ContributionOrder, EmpiricalPValue, Reference, RowOrigin};
@@ -83,7 +84,7 @@ fn for_each_row(
     file: &ModelFile,
     mut each: impl FnMut(u64, Option<&str>, Option<&[f64]>) -> Result<(), CliError>,
 ) -> Result<(), CliError> {
-    let (mut reader, headers) = open(&args.data)?;
+    let (mut reader, headers) = RowReader::open(&args.data)?;
     let layout = layout_for(
         &args.data,
         &headers,
@@ -91,29 +92,30 @@ fn for_each_row(
         args.label.as_deref(),
     )?;
     let size = std::fs::metadata(&args.data).map(|m| m.len()).unwrap_or(0);
-    let progress = std::io::stderr().is_terminal() && size > 64 << 20 && !crate::output::quiet();
-    let mut record = csv::StringRecord::new();
+    let progress = std::io::stderr().is_terminal()
+        && size > 64 << 20
+        && !crate::output::quiet()
+        && reader.bytes_read().is_some();
     let mut values = Vec::with_capacity(layout.fields.len());
     let mut count = 0u64;
-    while reader
-        .read_record(&mut record)
-        .map_err(|e| read_error(&args.data, e))?
-    {
-        let line = record.position().map_or(0, |p| p.line());
-        let label = layout.label.and_then(|l| record.get(l));
-        match parse_record(&args.data, &record, &layout, &mut values)? {
+    while let Some((line, outcome)) = reader.next_row(&args.data, &layout, &mut values)? {
+        let label = reader.label(&layout);
+        match outcome {
             RowOutcome::Complete => each(line, label, Some(&values))?,
             RowOutcome::Missing(_) if args.observed_only => each(line, label, Some(&values))?,
             RowOutcome::Missing(k) => {
                 if !args.skip_incomplete {
-                    return Err(missing_value_error(&args.data, line, &layout.names[k]));
+                    return Err(missing_value_error(
+                        &reader.place(&args.data, line),
+                        &layout.names[k],
+                    ));
                 }
                 each(line, label, None)?;
             }
         }
         count += 1;
         if progress && count.is_multiple_of(1_000_000) {
-            let done = record.position().map_or(0, |p| p.byte());
+            let done = reader.bytes_read().unwrap_or(0);
             eprint!(
                 "\rmvdist: {count} rows ({:.0}%)",
                 100.0 * done as f64 / size as f64

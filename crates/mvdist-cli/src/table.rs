@@ -1,8 +1,10 @@
-//! Reading CSV input: a header row, then one observation per line.
+//! Reading table input: CSV (a header row, then one observation per
+//! line), or the columnar formats of [`crate::rows`].
 //!
 //! Line numbers in messages count as a person does: the header is line 1,
 //! the first data row line 2.
 
+use crate::rows::RowReader;
 use crate::CliError;
 use std::fs::File;
 use std::path::Path;
@@ -216,10 +218,10 @@ pub fn parse_record(
     })
 }
 
-pub fn missing_value_error(path: &Path, line: u64, column: &str) -> CliError {
+/// A missing value at `place` (`file, line N` or `file, row N`).
+pub fn missing_value_error(place: &str, column: &str) -> CliError {
     CliError(format!(
-        "{}, line {line}, column '{column}': the value is missing; fill it in, or pass --skip-incomplete to leave such rows out",
-        path.display()
+        "{place}, column '{column}': the value is missing; fill it in, or pass --skip-incomplete to leave such rows out"
     ))
 }
 
@@ -244,14 +246,14 @@ pub fn read_table(
     choice: &ColumnChoice,
     skip_incomplete: bool,
 ) -> Result<Table, CliError> {
-    let (reader, headers) = open(path)?;
+    let (reader, headers) = RowReader::open(path)?;
     let layout = layout(path, &headers, choice)?;
     read_rows(path, reader, layout, skip_incomplete, false)
 }
 
 /// As [`read_table`], keeping rows with missing values (as NaN cells).
 pub fn read_table_with_gaps(path: &Path, choice: &ColumnChoice) -> Result<Table, CliError> {
-    let (reader, headers) = open(path)?;
+    let (reader, headers) = RowReader::open(path)?;
     let layout = layout(path, &headers, choice)?;
     read_rows(path, reader, layout, false, true)
 }
@@ -264,14 +266,14 @@ pub fn read_table_named(
     label: Option<&str>,
     skip_incomplete: bool,
 ) -> Result<Table, CliError> {
-    let (reader, headers) = open(path)?;
+    let (reader, headers) = RowReader::open(path)?;
     let layout = layout_for(path, &headers, names, label)?;
     read_rows(path, reader, layout, skip_incomplete, false)
 }
 
 fn read_rows(
     path: &Path,
-    mut reader: csv::Reader<Source>,
+    mut reader: RowReader,
     layout: Layout,
     skip_incomplete: bool,
     keep_gaps: bool,
@@ -280,35 +282,29 @@ fn read_rows(
     let mut labels = Vec::new();
     let mut rows = 0;
     let mut skipped = 0;
-    let mut record = csv::StringRecord::new();
     let mut values = Vec::with_capacity(layout.fields.len());
-    while reader
-        .read_record(&mut record)
-        .map_err(|e| read_error(path, e))?
-    {
-        let line = record.position().map_or(0, |p| p.line());
-        match parse_record(path, &record, &layout, &mut values)? {
-            RowOutcome::Complete => {
-                data.extend_from_slice(&values);
-                if let Some(l) = layout.label {
-                    labels.push(record.get(l).unwrap_or("").to_string());
-                }
-                rows += 1;
-            }
-            RowOutcome::Missing(_) if keep_gaps => {
-                data.extend_from_slice(&values);
-                if let Some(l) = layout.label {
-                    labels.push(record.get(l).unwrap_or("").to_string());
-                }
-                rows += 1;
-            }
+    while let Some((line, outcome)) = reader.next_row(path, &layout, &mut values)? {
+        let keep = match outcome {
+            RowOutcome::Complete => true,
+            RowOutcome::Missing(_) if keep_gaps => true,
             RowOutcome::Missing(k) => {
                 if skip_incomplete {
                     skipped += 1;
+                    false
                 } else {
-                    return Err(missing_value_error(path, line, &layout.names[k]));
+                    return Err(missing_value_error(
+                        &reader.place(path, line),
+                        &layout.names[k],
+                    ));
                 }
             }
+        };
+        if keep {
+            data.extend_from_slice(&values);
+            if layout.label.is_some() {
+                labels.push(reader.label(&layout).unwrap_or("").to_string());
+            }
+            rows += 1;
         }
     }
     if rows == 0 && skipped == 0 {

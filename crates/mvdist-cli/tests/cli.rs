@@ -2087,3 +2087,172 @@ fn json_summaries_agree_with_the_outputs() {
             "--json and --out - both write standard output",
         ));
 }
+
+/// The iris data (scikit-learn fixture) with an integer column `lot` (row
+/// mod 7) as an Arrow batch, and the same table as CSV text.
+fn iris_batch(null_at: Option<usize>) -> (arrow::array::RecordBatch, String) {
+    use arrow::array::{ArrayRef, Float64Array, Int32Array, StringArray};
+    use std::sync::Arc;
+    let f = common::fixture("iris_covariance.json");
+    let x = common::matrix(&f["data"]);
+    let n = x.nrows();
+    let names: Vec<String> = (0..n).map(|i| format!("f{i}")).collect();
+    let mut columns: Vec<(&str, ArrayRef)> = vec![(
+        "flower",
+        Arc::new(StringArray::from(names.clone())) as ArrayRef,
+    )];
+    let titles = ["sepal_length", "sepal_width", "petal_length", "petal_width"];
+    for (j, t) in titles.iter().enumerate() {
+        let v: Vec<Option<f64>> = (0..n)
+            .map(|i| (null_at != Some(i) || j != 1).then_some(x[[i, j]]))
+            .collect();
+        columns.push((t, Arc::new(Float64Array::from(v)) as ArrayRef));
+    }
+    let lot: Vec<i32> = (0..n as i32).map(|i| i % 7).collect();
+    columns.push(("lot", Arc::new(Int32Array::from(lot)) as ArrayRef));
+    let mut text = String::from("flower,sepal_length,sepal_width,petal_length,petal_width,lot\n");
+    for i in 0..n {
+        let w = if null_at == Some(i) {
+            String::new()
+        } else {
+            x[[i, 1]].to_string()
+        };
+        text += &format!(
+            "{},{},{w},{},{},{}\n",
+            names[i],
+            x[[i, 0]],
+            x[[i, 2]],
+            x[[i, 3]],
+            i % 7
+        );
+    }
+    (
+        arrow::array::RecordBatch::try_from_iter(columns).unwrap(),
+        text,
+    )
+}
+
+fn write_parquet(path: &Path, batch: &arrow::array::RecordBatch) {
+    let file = std::fs::File::create(path).unwrap();
+    let props = parquet::file::properties::WriterProperties::builder()
+        .set_compression(parquet::basic::Compression::SNAPPY)
+        .set_max_row_group_row_count(Some(64))
+        .build();
+    let mut w = parquet::arrow::ArrowWriter::try_new(file, batch.schema(), Some(props)).unwrap();
+    w.write(batch).unwrap();
+    w.close().unwrap();
+}
+
+/// Parquet (several row groups, snappy) and Arrow IPC input give byte for
+/// byte the model and scores of the same table as CSV (integers read as
+/// numbers, the label as text); nulls are missing values named by row;
+/// a text variable, a truncated file and a CSV file named `.parquet` are
+/// refused naming the file or column, leaving no output.
+#[test]
+fn columnar_input_matches_csv() {
+    let dir = TempDir::new().unwrap();
+    let (batch, text) = iris_batch(None);
+    let csv = write(dir.path(), "iris.csv", &text);
+    let pq = dir.path().join("iris.parquet");
+    write_parquet(&pq, &batch);
+    let ipc = dir.path().join("iris.arrow");
+    {
+        let file = std::fs::File::create(&ipc).unwrap();
+        let mut w = arrow::ipc::writer::FileWriter::try_new(file, &batch.schema()).unwrap();
+        w.write(&batch).unwrap();
+        w.finish().unwrap();
+    }
+    let fit = |input: &Path, out: &str| {
+        let model = dir.path().join(out);
+        mvdist()
+            .arg("fit")
+            .arg(input)
+            .arg("--out")
+            .arg(&model)
+            .args(["--label", "flower", "--quiet"])
+            .assert()
+            .success();
+        std::fs::read(model).unwrap()
+    };
+    let reference = fit(&csv, "csv.json");
+    assert_eq!(fit(&pq, "pq.json"), reference);
+    assert_eq!(fit(&ipc, "ipc.json"), reference);
+    let score = |input: &Path| {
+        mvdist()
+            .arg("score")
+            .arg(dir.path().join("csv.json"))
+            .arg(input)
+            .args(["--out", "-", "--label", "flower", "--quiet"])
+            .assert()
+            .success()
+            .get_output()
+            .stdout
+            .clone()
+    };
+    let scored = score(&csv);
+    assert!(scored.starts_with(b"row,flower,d2"));
+    assert_eq!(score(&pq), scored);
+    assert_eq!(score(&ipc), scored);
+
+    // A null is a missing value, named by its data row.
+    let (gappy, _) = iris_batch(Some(2));
+    let gappy_path = dir.path().join("gappy.parquet");
+    write_parquet(&gappy_path, &gappy);
+    let out = dir.path().join("m.json");
+    fails(
+        &[
+            "fit".as_ref(),
+            gappy_path.as_os_str(),
+            "--out".as_ref(),
+            out.as_os_str(),
+            "--label".as_ref(),
+            "flower".as_ref(),
+        ],
+        &out,
+        "gappy.parquet, row 3, column 'sepal_width': the value is missing",
+    );
+    mvdist()
+        .arg("fit")
+        .arg(&gappy_path)
+        .arg("--out")
+        .arg(&out)
+        .args(["--label", "flower", "--skip-incomplete"])
+        .assert()
+        .success()
+        .stderr(predicate::str::contains("skipped 1 incomplete row(s)"))
+        .stderr(predicate::str::contains("149 rows × 5 variables"));
+    std::fs::remove_file(&out).unwrap();
+
+    // Text where numbers are expected; a truncated file; a CSV in disguise.
+    for (path, message) in [
+        (pq.clone(), "column 'flower' holds Utf8, not numbers"),
+        (
+            {
+                let p = dir.path().join("cut.parquet");
+                let bytes = std::fs::read(&pq).unwrap();
+                std::fs::write(&p, &bytes[..bytes.len() / 2]).unwrap();
+                p
+            },
+            "cut.parquet: cannot read it as a Parquet file",
+        ),
+        (
+            {
+                let p = dir.path().join("text.parquet");
+                std::fs::write(&p, &text).unwrap();
+                p
+            },
+            "text.parquet: cannot read it as a Parquet file",
+        ),
+    ] {
+        fails(
+            &[
+                "fit".as_ref(),
+                path.as_os_str(),
+                "--out".as_ref(),
+                out.as_os_str(),
+            ],
+            &out,
+            message,
+        );
+    }
+}
