@@ -225,8 +225,14 @@ proptest! {
             let a = unbiased.score(rows, origin).unwrap();
             for other in [&ml, &shrunk] {
                 let b = other.score(rows, origin).unwrap();
+                // The two fits' distances differ by the factor n/(n − 1)
+                // only up to rounding (~1e-15 relative), which the Beta/F
+                // tail amplifies by its elasticity x·f(x)/F(x) (tens in far
+                // tails) on top of the incomplete beta's own error; 1e-10
+                // relative leaves room for both (3e-12 was seen at p = 5,
+                // n = 8, in-sample p ≈ 0.004).
                 for (pa, pb) in a.p_values().iter().zip(b.p_values()) {
-                    prop_assert!((pa - pb).abs() <= 1e-12 * pa.max(1e-300) + 1e-300, "{origin:?}: {pa} vs {pb}");
+                    prop_assert!((pa - pb).abs() <= 1e-10 * pa.max(1e-300) + 1e-300, "{origin:?}: {pa} vs {pb}");
                 }
                 for alpha in [0.05, 1e-3] {
                     let ca = unbiased.cutoff(alpha, origin).unwrap();
